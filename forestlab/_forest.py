@@ -1,0 +1,279 @@
+"""The Forest: bootstrap aggregation of level-wise CART trees, with the in-bag counts kept."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from ._grow import GrowthRules, grow_batch
+from ._presort import TrainingData, presort
+from ._sampler import CandidateSampler
+from ._seeding import check_rng, root_seed, tree_seed
+from ._splitter import CartSplitter, GiniSplitter, SquaredErrorSplitter
+from ._tree import Tree, leaf_index
+from ._validation import Settings, Target, check_settings, check_splitter_output, check_X, check_y
+
+__all__ = ["Forest"]
+
+# Trees grown together in one batch hold about this many (tree, row) items; batching pays at small n.
+BATCH_ITEMS = 65_536
+MAX_BATCH = 64
+
+_DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "depth_limit": None,
+             "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1}
+
+
+class Forest:
+    """Bagged CART trees or a random forest, for classification or regression.
+
+    Every tree is grown on its own bootstrap sample (``trees`` samples of ``sample_size`` cases drawn with
+    replacement; Breiman 1996, "Bagging predictors") and, at every split, searches only the candidate
+    features its ``sampler`` offers (Breiman 2001, "Random forests"). The in-bag counts of every tree are kept
+    in :attr:`inbag`, so out-of-bag analyses need no refitting.
+
+    Parameters
+    ----------
+    trees : int, default 500
+        Number of bootstrap samples, hence trees.
+    sampler : CandidateSampler, int, float, {"sqrt", "log2"} or None
+        Candidate features per split. None is :class:`RandomSubset` with the common-practice ``m``:
+        ``floor(sqrt(p))`` for classification, ``max(1, floor(p/3))`` for regression. :class:`AllFeatures`
+        gives plain bagging; a number or name is shorthand for ``RandomSubset(m)``.
+    splitter : CartSplitter, {"gini", "entropy", "squared_error"} or None
+        Split criterion. None is Gini for classification and squared error for regression.
+    min_leaf : float or None
+        Smallest leaf, in bootstrap-weighted cases; each child of a split must weigh at least this.
+        None is 1 for classification and 5 for regression (common practice).
+    depth_limit : int or None
+        Largest depth of a node (the root has depth 0); None grows until nodes are pure or too light.
+    sample_size : int, float or None
+        Cases drawn per tree: an int, a fraction of ``n``, or None for ``n``.
+    replace : bool, default True
+        Draw with replacement (the bootstrap) or without (subsampling).
+    rng : None, int, numpy.random.SeedSequence or numpy.random.Generator
+        Source of randomness. One SeedSequence spawns one child per tree, so the same ``rng`` gives the same
+        forest, whatever the engine's batching or number of workers.
+    task : {"classification", "regression"} or None
+        None infers the task: float targets give regression, anything else (ints, strings, bools)
+        classification; a splitter's own task takes precedence over the inference.
+    workers : int, default 1
+        Local processes to grow trees in.
+
+    Attributes
+    ----------
+    inbag : ndarray of uint8, shape (trees, n)
+        ``inbag[b, i]`` is how often case ``i`` was drawn for tree ``b``; the case is out-of-bag for tree
+        ``b`` exactly when it is 0. Read-only.
+    classes : ndarray or None
+        Class labels in the order of the columns of :meth:`votes`; None for regression.
+    task : str
+        ``"classification"`` or ``"regression"`` (after fit).
+    features : int
+        Number of features seen in fit.
+    seed : numpy.random.SeedSequence
+        Root seed; tree ``b`` is grown from ``SeedSequence(seed.entropy, spawn_key=seed.spawn_key + (b,))``.
+
+    Examples
+    --------
+    >>> import numpy as np, forestlab as fl
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(300, 5))
+    >>> y = np.where(X[:, 0] + X[:, 1] > 0, "pass", "fail")
+    >>> forest = fl.Forest(trees=50, rng=7).fit(X, y)
+    >>> forest.classes.tolist()
+    ['fail', 'pass']
+    >>> forest.votes(X[:2]).sum(axis=1).tolist()
+    [1.0, 1.0]
+    >>> forest.inbag.shape
+    (50, 300)
+    """
+
+    inbag: NDArray[np.uint8]
+    classes: NDArray | None
+    task: str
+    features: int
+    seed: np.random.SeedSequence
+
+    def __init__(self, trees: int = 500, *, sampler: CandidateSampler | int | float | str | None = None,
+                 splitter: CartSplitter | str | None = None, min_leaf: float | None = None,
+                 depth_limit: int | None = None, sample_size: int | float | None = None, replace: bool = True,
+                 rng: Any = None, task: str | None = None, workers: int = 1) -> None:
+        self._settings: Settings = check_settings(trees, sampler, splitter, min_leaf, depth_limit, sample_size,
+                                                  replace, task, workers)
+        check_rng(rng)
+        self._rng = rng
+        self._trees: list[Tree] = []
+
+    # ----------------------------------------------------------------------------------------- settings
+    @property
+    def trees(self) -> int:
+        """Number of trees (the setting before fit, the number grown after)."""
+        return len(self._trees) if self._trees else self._settings.trees
+
+    @property
+    def sampler(self) -> CandidateSampler:
+        """The candidate-feature sampler (task-dependent size resolved after fit)."""
+        return getattr(self, "_rules", None).sampler if self.fitted else self._settings.sampler
+
+    @property
+    def splitter(self) -> CartSplitter | None:
+        """The split criterion (the task default after fit when none was given)."""
+        return self._rules.splitter if self.fitted else self._settings.splitter
+
+    @property
+    def min_leaf(self) -> float | None:
+        """Smallest leaf weight (the task default after fit when none was given)."""
+        return self._rules.min_leaf if self.fitted else self._settings.min_leaf
+
+    @property
+    def depth_limit(self) -> int | None:
+        """Largest node depth, or None."""
+        return self._settings.depth_limit
+
+    @property
+    def sample_size(self) -> int | float | None:
+        """Cases drawn per tree (an int after fit)."""
+        return self._rules.sample_size if self.fitted else self._settings.sample_size
+
+    @property
+    def replace(self) -> bool:
+        """Whether bootstrap draws are with replacement."""
+        return self._settings.replace
+
+    @property
+    def fitted(self) -> bool:
+        """True once :meth:`fit` has run."""
+        return bool(self._trees)
+
+    def __repr__(self) -> str:
+        given = {"trees": self._settings.trees, "sampler": self._settings.sampler,
+                 "splitter": self._settings.splitter, "min_leaf": self._settings.min_leaf,
+                 "depth_limit": self._settings.depth_limit, "sample_size": self._settings.sample_size,
+                 "replace": self._settings.replace, "rng": self._rng, "task": self._settings.task,
+                 "workers": self._settings.workers}
+        if repr(given["sampler"]) == "RandomSubset(None)":
+            given["sampler"] = None
+        shown = [f"{k}={v!r}" for k, v in given.items() if v is not _DEFAULTS[k] and v != _DEFAULTS[k]]
+        return f"Forest({', '.join(shown)})"
+
+    # ----------------------------------------------------------------------------------------- fitting
+    def fit(self, X: ArrayLike, y: ArrayLike) -> Forest:
+        """Grow the forest on predictors ``X`` (n, p) and targets ``y`` (n,); returns the forest.
+
+        Refitting replaces every tree.
+        """
+        X = check_X(X)
+        if X.shape[0] < 2:
+            raise ValueError(f"`X` must have at least 2 rows to grow a tree; got {X.shape[0]}")
+        target = check_y(y, X.shape[0], self._task_for())
+        rules = self._resolve_rules(target, X.shape)
+        stats = check_splitter_output(rules.splitter, target)
+        self._data = presort(X, target.values, stats, 0 if target.classes is None else target.classes.size)
+        self._rules = rules
+        self.task = target.task
+        self.classes = target.classes
+        self.features = X.shape[1]
+        self._target = target
+        self.seed = root_seed(self._rng)
+        trees, inbag = self._grow(range(self._settings.trees))
+        self._trees = trees
+        self.inbag = inbag
+        self.inbag.flags.writeable = False
+        return self
+
+    def _task_for(self) -> str | None:
+        s = self._settings
+        if s.task is not None:
+            return s.task
+        return s.splitter.task if s.splitter is not None else None
+
+    def _resolve_rules(self, target: Target, shape: tuple[int, int]) -> GrowthRules:
+        s = self._settings
+        n, p = shape
+        splitter = s.splitter
+        if splitter is None:
+            splitter = GiniSplitter() if target.task == "classification" else SquaredErrorSplitter()
+        elif splitter.task != target.task:
+            raise ValueError(f"`splitter` {splitter!r} is for {splitter.task}, but the task is {target.task}")
+        min_leaf = s.min_leaf if s.min_leaf is not None else (1.0 if target.task == "classification" else 5.0)
+        size = s.sample_size
+        size = n if size is None else (max(1, math.floor(size * n)) if isinstance(size, float) else size)
+        if not s.replace and size > n:
+            raise ValueError(f"`sample_size` = {size} exceeds the {n} cases available without replacement")
+        return GrowthRules(sampler=s.sampler.resolve(p, target.task), splitter=splitter, min_leaf=min_leaf,
+                           depth_limit=s.depth_limit, sample_size=int(size), replace=s.replace)
+
+    def _grow(self, tree_ids: range) -> tuple[list[Tree], NDArray[np.uint8]]:
+        """Grow the trees with the given spawn indices, in batches sized by the number of cases."""
+        ids = list(tree_ids)
+        batch = max(1, min(MAX_BATCH, BATCH_ITEMS // self._data.rows))
+        trees: list[Tree] = []
+        counts: list[NDArray[np.uint8]] = []
+        for start in range(0, len(ids), batch):
+            seeds = [tree_seed(self.seed, b) for b in ids[start:start + batch]]
+            grown, inbag = grow_batch(self._data, self._rules, seeds)
+            trees += grown
+            counts.append(inbag)
+        return trees, np.concatenate(counts)
+
+    # ----------------------------------------------------------------------------------------- inspection
+    def tree(self, b: int) -> Tree:
+        """Tree ``b`` as flat node arrays (see :class:`Tree`)."""
+        self._check_fitted()
+        if isinstance(b, (bool, np.bool_)) or not isinstance(b, (int, np.integer)):
+            raise TypeError(f"`b` must be an int tree index; got {type(b).__name__}")
+        if not -len(self._trees) <= b < len(self._trees):
+            raise IndexError(f"`b` = {b} is out of range for a forest of {len(self._trees)} trees")
+        return self._trees[b]
+
+    def regrow(self, b: int) -> Tree:
+        """Grow tree ``b`` again, alone, from its own seed and the training data; equals :meth:`tree`."""
+        self.tree(b)
+        b = b % len(self._trees)
+        grown, _ = grow_batch(self._data, self._rules, [tree_seed(self.seed, b)])
+        return grown[0]
+
+    # ----------------------------------------------------------------------------------------- prediction
+    def per_tree(self, X: ArrayLike) -> NDArray:
+        """Every tree's prediction for every row: shape ``(trees, n)``.
+
+        Class indices into :attr:`classes` (int64) for classification, values (float64) for regression.
+        """
+        X = self._check_predict_X(X)
+        out = np.empty((len(self._trees), X.shape[0]))
+        for b, tree in enumerate(self._trees):
+            out[b] = tree.value[leaf_index(tree, X)]
+        return out.astype(np.int64) if self.task == "classification" else out
+
+    def votes(self, X: ArrayLike) -> NDArray[np.float64]:
+        """Share of trees voting for each class, shape ``(n, K)`` in the order of :attr:`classes`."""
+        self._check_fitted()
+        if self.task != "classification":
+            raise TypeError("`votes` is for classification forests; this forest does regression")
+        return _vote_shares(self.per_tree(X), self.classes.size)
+
+    def predict(self, X: ArrayLike) -> NDArray:
+        """Majority vote (ties to the lowest class index) or the mean of the trees' predictions."""
+        self._check_fitted()
+        if self.task == "classification":
+            return self.classes[np.argmax(self.votes(X), axis=1)]
+        return self.per_tree(X).mean(axis=0)
+
+    def _check_fitted(self) -> None:
+        if not self._trees:
+            raise RuntimeError("this Forest is not fitted yet; call `fit(X, y)` first")
+
+    def _check_predict_X(self, X: ArrayLike) -> NDArray[np.float64]:
+        self._check_fitted()
+        return check_X(X, features=self.features)
+
+
+def _vote_shares(per_tree: NDArray[np.int64], classes: int) -> NDArray[np.float64]:
+    """Share of rows of ``per_tree`` (trees, n) equal to each class: shape (n, classes)."""
+    trees, n = per_tree.shape
+    flat = (np.arange(n) * classes)[None, :] + per_tree
+    counts = np.bincount(flat.ravel(), minlength=n * classes).reshape(n, classes)
+    return counts / trees

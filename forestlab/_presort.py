@@ -1,0 +1,63 @@
+"""The per-forest plan: features sorted once, reused by every tree and every level."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+__all__ = ["TrainingData", "presort"]
+
+
+@dataclass(frozen=True, eq=False)
+class TrainingData:
+    """Everything the grower reads; built once per fit and shared read-only by all trees.
+
+    Attributes
+    ----------
+    X : ndarray of float64, shape (n, p)
+        The predictors, C-contiguous.
+    order : ndarray of int32, shape (p, n)
+        ``order[j]`` lists the rows by increasing ``X[:, j]`` (stable sort).
+    sorted_x : ndarray of float64, shape (p, n)
+        ``sorted_x[j, r] == X[order[j, r], j]``.
+    rank : ndarray of int32, shape (n, p)
+        ``rank[i, j]`` is the position of row ``i`` in ``order[j]``.
+    target : ndarray, shape (n,)
+        Class indices (int64) or float64 targets.
+    stats : ndarray of float64, shape (n, 1 + s)
+        Column 0 is 1 (the weight channel); columns 1.. the splitter's statistics.
+    classes : int
+        Number of classes, 0 for regression.
+    """
+
+    X: NDArray[np.float64]
+    order: NDArray[np.int32]
+    sorted_x: NDArray[np.float64]
+    rank: NDArray[np.int32]
+    target: NDArray
+    stats: NDArray[np.float64]
+    classes: int
+
+    @property
+    def rows(self) -> int:
+        return self.X.shape[0]
+
+    @property
+    def features(self) -> int:
+        return self.X.shape[1]
+
+
+def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.float64], classes: int) -> TrainingData:
+    """Sort every feature once and pack the per-case statistics with a weight channel."""
+    n, p = X.shape
+    order = np.ascontiguousarray(np.argsort(X, axis=0, kind="stable").T.astype(np.int32))
+    sorted_x = np.ascontiguousarray(np.take_along_axis(X, order.T, axis=0).T)
+    rank_t = np.empty((p, n), dtype=np.int32)
+    np.put_along_axis(rank_t, order, np.arange(n, dtype=np.int32)[None, :], axis=1)
+    stats = np.empty((n, 1 + statistics.shape[1]))
+    stats[:, 0] = 1.0
+    stats[:, 1:] = statistics
+    return TrainingData(X=X, order=order, sorted_x=sorted_x, rank=np.ascontiguousarray(rank_t.T),
+                        target=target, stats=stats, classes=classes)

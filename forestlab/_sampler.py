@@ -1,0 +1,194 @@
+"""Candidate-feature samplers: which features each open node may split on.
+
+A sampler never creates or stores random state: the engine hands it the tree's own
+:class:`numpy.random.Generator`, so every draw comes from that tree's ``SeedSequence`` child.
+"""
+
+from __future__ import annotations
+
+import abc
+import math
+import numbers
+from typing import ClassVar
+
+import numpy as np
+from numpy.typing import NDArray
+
+__all__ = ["CandidateSampler", "AllFeatures", "RandomSubset", "TreeSubspace"]
+
+_NAMED_SIZES = ("log2", "sqrt")
+
+
+class CandidateSampler(abc.ABC):
+    """Abstract candidate-feature sampler; subclass it to choose split candidates your own way.
+
+    Implement ``draw(rng, nodes, features)`` returning a boolean mask of shape ``(nodes, features)``: row ``k``
+    marks the features open node ``k`` of the current level may split on. Set the class attribute
+    ``per_tree = True`` to have ``draw`` called once per tree (with ``nodes == 1``) and its row used for every
+    node of that tree, as in the random subspace method.
+
+    If none of a node's candidates can split it (all are constant in the node), a per-node sampler's node
+    falls back to the remaining features, so a node becomes a leaf only when no feature can split it. A
+    per-tree sampler's mask is final.
+
+    Examples
+    --------
+    A sampler that always offers feature 0 plus one other feature at random:
+
+    >>> import numpy as np, forestlab as fl
+    >>> class FirstPlusOne(fl.CandidateSampler):
+    ...     def draw(self, rng, nodes, features):
+    ...         mask = np.zeros((nodes, features), dtype=bool)
+    ...         mask[:, 0] = True
+    ...         mask[np.arange(nodes), rng.integers(0, features, size=nodes)] = True
+    ...         return mask
+    >>> X = np.random.default_rng(0).normal(size=(100, 4)); y = X[:, 1] > 0
+    >>> fl.Forest(trees=5, sampler=FirstPlusOne(), rng=0).fit(X, y).predict(X[:3]).shape
+    (3,)
+    """
+
+    per_tree: ClassVar[bool] = False
+
+    @abc.abstractmethod
+    def draw(self, rng: np.random.Generator, nodes: int, features: int) -> NDArray[np.bool_]:
+        """Candidate mask for the open nodes of one level.
+
+        Parameters
+        ----------
+        rng : numpy.random.Generator
+            The tree's generator; draw only from it.
+        nodes : int
+            Number of open nodes at this level (1 for a per-tree sampler).
+        features : int
+            Number of features ``p``.
+
+        Returns
+        -------
+        ndarray of bool, shape (nodes, features)
+        """
+
+    def resolve(self, features: int, task: str) -> CandidateSampler:
+        """This sampler with any task-dependent size fixed for ``features`` features (used at fit)."""
+        return self
+
+    def __repr__(self) -> str:
+        return f"{type(self).__name__}()"
+
+    def __eq__(self, other: object) -> bool:
+        return type(self) is type(other) and vars(self) == vars(other)
+
+    def __hash__(self) -> int:
+        return hash(type(self))
+
+
+class AllFeatures(CandidateSampler):
+    """Every feature is a candidate at every node: plain bagging (Breiman 1996, "Bagging predictors")."""
+
+    def draw(self, rng: np.random.Generator, nodes: int, features: int) -> NDArray[np.bool_]:
+        return np.ones((nodes, features), dtype=bool)
+
+
+def _check_size(m: object, argument: str) -> int | float | str | None:
+    """Validate a candidate count spec: positive int, fraction in (0, 1], 'sqrt', 'log2' or None."""
+    if m is None:
+        return None
+    if isinstance(m, str):
+        if m not in _NAMED_SIZES:
+            raise ValueError(f"`{argument}` must be one of {sorted(_NAMED_SIZES)}, an int or a fraction; got {m!r}")
+        return m
+    if isinstance(m, (bool, np.bool_)):
+        raise TypeError(f"`{argument}` must be an int, a float fraction, 'sqrt' or 'log2'; got a bool")
+    if isinstance(m, numbers.Integral):
+        if m < 1:
+            raise ValueError(f"`{argument}` must be at least 1 when an int; got {m}")
+        return int(m)
+    if isinstance(m, numbers.Real):
+        if not 0.0 < float(m) <= 1.0:
+            raise ValueError(f"`{argument}` must lie in (0, 1] when a fraction; got {m}")
+        return float(m)
+    raise TypeError(f"`{argument}` must be an int, a float fraction, 'sqrt' or 'log2'; got {type(m).__name__}")
+
+
+def candidate_count(m: int | float | str | None, features: int, task: str) -> int:
+    """Number of candidates a size spec gives for ``features`` features.
+
+    ``None`` is the common-practice default: ``floor(sqrt(p))`` for classification and ``max(1, floor(p/3))``
+    for regression. ``"sqrt"`` is ``floor(sqrt(p))``; ``"log2"`` is ``int(log2(p) + 1)`` (Breiman 2001,
+    "Random forests", section 5); a fraction ``f`` gives ``max(1, floor(f * p))``; an int is capped at ``p``.
+    """
+    if m is None:
+        m = "sqrt" if task == "classification" else max(1, features // 3)
+    if m == "sqrt":
+        count = math.isqrt(features)
+    elif m == "log2":
+        count = int(math.log2(features) + 1)
+    elif isinstance(m, float):
+        count = math.floor(m * features)
+    else:
+        count = int(m)
+    return max(1, min(count, features))
+
+
+def _random_mask(rng: np.random.Generator, rows: int, features: int, m: int) -> NDArray[np.bool_]:
+    """Each row marks ``m`` of ``features`` columns, uniformly without replacement."""
+    if m >= features:
+        return np.ones((rows, features), dtype=bool)
+    keys = rng.random((rows, features))
+    chosen = np.argpartition(keys, m - 1, axis=1)[:, :m]
+    mask = np.zeros((rows, features), dtype=bool)
+    np.put_along_axis(mask, chosen, True, axis=1)
+    return mask
+
+
+class RandomSubset(CandidateSampler):
+    """A fresh random subset of ``m`` features at every node: the random forest (Breiman 2001).
+
+    Parameters
+    ----------
+    m : int, float, {"sqrt", "log2"} or None
+        Candidates per split: an int, a fraction of the features, ``"sqrt"`` (``floor(sqrt(p))``), ``"log2"``
+        (``int(log2(p) + 1)``, Breiman 2001, section 5), or None for the common-practice default
+        (``floor(sqrt(p))`` for classification, ``max(1, floor(p/3))`` for regression).
+    """
+
+    def __init__(self, m: int | float | str | None = None) -> None:
+        self.m = _check_size(m, "m")
+
+    def resolve(self, features: int, task: str) -> RandomSubset:
+        return RandomSubset(candidate_count(self.m, features, task))
+
+    def draw(self, rng: np.random.Generator, nodes: int, features: int) -> NDArray[np.bool_]:
+        return _random_mask(rng, nodes, features, candidate_count(self.m, features, "classification"))
+
+    def __repr__(self) -> str:
+        return f"RandomSubset({self.m!r})"
+
+
+class TreeSubspace(CandidateSampler):
+    """One random subset of ``m`` features per tree: the random subspace method (Ho 1998).
+
+    Ho, T. K. (1998), "The random subspace method for constructing decision forests", IEEE Transactions on
+    Pattern Analysis and Machine Intelligence 20(8), 832-844. Each tree sees only its own subset.
+
+    Parameters
+    ----------
+    m : int, float, {"sqrt", "log2"} or None
+        Size of each tree's subset, as for :class:`RandomSubset`; None gives half the features (Ho 1998
+        found subspaces of about half the features to work well; from memory).
+    """
+
+    per_tree: ClassVar[bool] = True
+
+    def __init__(self, m: int | float | str | None = None) -> None:
+        self.m = _check_size(m, "m")
+
+    def resolve(self, features: int, task: str) -> TreeSubspace:
+        size = max(1, features // 2) if self.m is None else candidate_count(self.m, features, task)
+        return TreeSubspace(size)
+
+    def draw(self, rng: np.random.Generator, nodes: int, features: int) -> NDArray[np.bool_]:
+        m = max(1, features // 2) if self.m is None else candidate_count(self.m, features, "classification")
+        return _random_mask(rng, nodes, features, m)
+
+    def __repr__(self) -> str:
+        return f"TreeSubspace({self.m!r})"

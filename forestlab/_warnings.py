@@ -1,0 +1,17 @@
+"""Warning classes raised by forestlab.
+
+All of them derive from :class:`ForestlabWarning`, so a user can silence or escalate the whole family with one
+``warnings.filterwarnings`` call.
+"""
+
+from __future__ import annotations
+
+__all__ = ["ForestlabWarning", "SingleClassWarning"]
+
+
+class ForestlabWarning(UserWarning):
+    """Base class of every warning forestlab emits."""
+
+
+class SingleClassWarning(ForestlabWarning):
+    """The training labels contain a single class: every tree is one leaf that predicts it."""
