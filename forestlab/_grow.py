@@ -36,6 +36,20 @@ class GrowthRules:
     replace: bool
 
 
+@dataclass(frozen=True)
+class _Batch:
+    """Weighted statistics of a batch of trees, channel-major: ``stats[c, slot * n + row]``."""
+
+    stats: NDArray[np.float64]
+    lightest: float  # smallest positive case weight; a min_leaf at most this needs no weight checks
+
+    @classmethod
+    def weighted(cls, data: TrainingData, counts: NDArray[np.uint8]) -> _Batch:
+        stats = (data.stats.T[:, None, :] * counts[None, :, :]).reshape(data.stats.shape[1], -1)
+        positive = stats[0][stats[0] > 0]
+        return cls(stats, float(positive.min()) if positive.size else 1.0)
+
+
 @dataclass
 class _Items:
     """The open (tree, row) pairs of one level; ``node`` indexes the level's open nodes."""
@@ -68,7 +82,7 @@ def grow_batch(data: TrainingData, rules: GrowthRules,
     n = data.rows
     counts = np.stack([draw_counts(g, n, rules.sample_size, rules.replace) for g in gens])
     subspace = _tree_masks(rules.sampler, gens, data.features)
-    wstats = (counts[:, :, None] * data.stats[None, :, :]).reshape(len(gens) * n, -1)
+    batch = _Batch.weighted(data, counts)
     rows = [np.flatnonzero(c) for c in counts]
     items = _Items(np.concatenate(rows), np.repeat(np.arange(len(gens)), [r.size for r in rows]))
     node_tree = np.arange(len(gens))
@@ -76,7 +90,7 @@ def grow_batch(data: TrainingData, rules: GrowthRules,
     records: list[dict[str, NDArray]] = []
     depth = 0
     while node_tree.size:
-        level, items, node_tree, base = _grow_level(data, rules, gens, subspace, wstats, items, node_tree,
+        level, items, node_tree, base = _grow_level(data, rules, gens, subspace, batch, items, node_tree,
                                                     base, depth)
         records.append(level)
         depth += 1
@@ -104,18 +118,18 @@ def checked_mask(sampler: CandidateSampler, rng: np.random.Generator, nodes: int
     return mask
 
 
-def _grow_level(data, rules, gens, subspace, wstats, items, node_tree, base, depth):
+def _grow_level(data, rules, gens, subspace, batch, items, node_tree, base, depth):
     """Summarise, search and partition every open node of one level."""
     n, K = data.rows, node_tree.size
     wi = node_tree[items.node] * n + items.row
-    weight, totals, value, pure = _node_summaries(data, wstats, items, wi, K)
+    weight, totals, value, pure = _node_summaries(data, batch, items, wi, K)
     closed = pure | (weight < 2 * rules.min_leaf)
     if rules.depth_limit is not None and depth >= rules.depth_limit:
         closed[:] = True
     open_nodes = np.flatnonzero(~closed)
     splits = _Splits(np.zeros(K, bool), np.full(K, -1), np.full(K, np.nan), np.zeros(K))
     if open_nodes.size:
-        sub = _search_open(data, rules, gens, subspace, wstats, items, node_tree, totals, weight, closed,
+        sub = _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, closed,
                            open_nodes)
         for name in ("found", "feature", "threshold", "decrease"):
             getattr(splits, name)[open_nodes] = getattr(sub, name)
@@ -134,26 +148,25 @@ def _grow_level(data, rules, gens, subspace, wstats, items, node_tree, base, dep
     return record, next_items, np.repeat(node_tree[split_nodes], 2), base + level_size
 
 
-def _node_summaries(data: TrainingData, wstats, items: _Items, wi, K: int):
+def _node_summaries(data: TrainingData, batch, items: _Items, wi, K: int):
     """Per node: case weight, summed statistics, leaf value and whether all targets are equal."""
-    item_stats = wstats[wi]
-    totals = np.stack([np.bincount(items.node, weights=item_stats[:, c], minlength=K)
-                       for c in range(item_stats.shape[1])], axis=1)
+    item_stats = np.take(batch.stats, wi, axis=1)
+    totals = np.stack([np.bincount(items.node, weights=channel, minlength=K) for channel in item_stats], axis=1)
     weight = totals[:, 0]
     y = data.target[items.row]
     if data.classes:
-        by_class = np.bincount(items.node * data.classes + y, weights=item_stats[:, 0],
+        by_class = np.bincount(items.node * data.classes + y, weights=item_stats[0],
                                minlength=K * data.classes).reshape(K, data.classes)
         value = np.argmax(by_class, axis=1).astype(np.float64)
     else:
-        value = np.bincount(items.node, weights=item_stats[:, 0] * y, minlength=K) / weight
+        value = np.bincount(items.node, weights=item_stats[0] * y, minlength=K) / weight
     reference = np.empty(K, dtype=y.dtype)
     reference[items.node] = y
     pure = np.bincount(items.node, weights=(y != reference[items.node]), minlength=K) == 0
     return weight, totals, value, pure
 
 
-def _search_open(data, rules, gens, subspace, wstats, items, node_tree, totals, weight, closed, open_nodes):
+def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, closed, open_nodes):
     """Best split of every open node; per-node samplers fall back to the other features if none splits."""
     keep = np.flatnonzero(~closed[items.node])
     relabel = np.cumsum(~closed) - 1
@@ -161,11 +174,11 @@ def _search_open(data, rules, gens, subspace, wstats, items, node_tree, totals, 
     sub_tree = node_tree[open_nodes]
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * _impurity(rules.splitter, totals[open_nodes])
-    splits = _best_splits(data, rules, wstats, sub_items, sub_tree, mask, parent)
+    splits = _best_splits(data, rules, batch, sub_items, sub_tree, mask, parent)
     if rules.sampler.per_tree or splits.found.all():
         return splits
     retry = ~mask & ~splits.found[:, None]
-    again = _best_splits(data, rules, wstats, sub_items.take(np.flatnonzero(~splits.found[sub_items.node])),
+    again = _best_splits(data, rules, batch, sub_items.take(np.flatnonzero(~splits.found[sub_items.node])),
                          sub_tree, retry, parent)
     for name in ("found", "feature", "threshold", "decrease"):
         getattr(splits, name)[again.found] = getattr(again, name)[again.found]
@@ -189,21 +202,21 @@ def _impurity(splitter: CartSplitter, S: NDArray[np.float64]) -> NDArray[np.floa
     return imp
 
 
-def _best_splits(data, rules, wstats, items: _Items, node_tree, mask, parent) -> _Splits:
+def _best_splits(data, rules, batch, items: _Items, node_tree, mask, parent) -> _Splits:
     """Exact best split of every node over its candidate features (ties: lowest feature, smallest threshold)."""
     K = mask.shape[0]
     out = _Splits(np.zeros(K, bool), np.full(K, -1), np.full(K, np.nan), np.zeros(K))
     cand = np.flatnonzero(mask)
     if cand.size == 0 or items.row.size == 0:
         return out
-    seg = _sorted_segments(data, items, node_tree, mask, cand)
-    cs, seg_total = _running_sums(wstats[seg.wi], seg)
+    seg = _sorted_segments(data, items, node_tree, mask, cand, batch.lightest)
+    cs, seg_total = _running_sums(np.take(batch.stats, seg.wi, axis=1), seg)
     boundary, left, right = _valid_boundaries(seg, cs, seg_total, rules.min_leaf)
     if boundary.size == 0:
         return out
     node = seg.cand_node[seg.cand_of[boundary]]
-    score = parent[node] - left[:, 0] * _impurity(rules.splitter, left) \
-        - right[:, 0] * _impurity(rules.splitter, right)
+    score = parent[node] - left[0] * _impurity(rules.splitter, left.T) \
+        - right[0] * _impurity(rules.splitter, right.T)
     nodes, pick = _argmax_per_node(node, score, parent)
     e = boundary[pick]
     lo, hi = seg.x[e], seg.x[e + 1]
@@ -226,28 +239,45 @@ class _Segments:
     cand_of: NDArray[np.int64]     # (L,) candidate of each element
     x: NDArray[np.float64]         # (L,) feature value of each element (non-decreasing per segment)
     wi: NDArray[np.int64]          # (L,) index of each element's (tree, row) in the weighted statistics
+    lightest: float                # smallest weight of any element: min_leaf at most this needs no check
 
 
-def _sorted_segments(data: TrainingData, items: _Items, node_tree, mask, cand) -> _Segments:
+def _sorted_segments(data: TrainingData, items: _Items, node_tree, mask, cand, lightest) -> _Segments:
     """Sort all (candidate, row) pairs of a level with one ``np.sort`` of packed keys."""
     n, p = data.rows, data.features
     K = mask.shape[0]
     cand_node, cand_feat = np.divmod(cand, p)
     ncand = np.bincount(cand_node, minlength=K)
     first = np.cumsum(ncand) - ncand
+    key = _packed_keys(data, items, cand_feat, ncand, first)
+    key.sort()
+    size = np.bincount(items.node, minlength=K)[cand_node]
+    cand_of = np.repeat(np.arange(cand.size), size)
+    flat = key + np.repeat((cand_feat - np.arange(cand.size)) * n, size)
+    cand_tree = node_tree[cand_node]
+    wi = data.order.ravel()[flat]
+    if cand_tree[-1] > 0:
+        wi += np.repeat(cand_tree * n, size)
+    return _Segments(cand_node, cand_feat, cand_tree, np.cumsum(size) - size, cand_of,
+                     data.sorted_x.ravel()[flat], wi, lightest)
+
+
+def _packed_keys(data: TrainingData, items: _Items, cand_feat, ncand, first) -> NDArray[np.int64]:
+    """``candidate * n + rank[row, feature]`` for every (item, candidate of its node) pair."""
+    n, p = data.rows, data.features
+    rank = data.rank.ravel()
+    m = int(ncand[0])
+    if m and np.all(ncand == m):
+        feat = cand_feat.reshape(-1, m)[items.node]
+        feat += (items.row * p)[:, None]
+        key = (first[items.node] * n)[:, None] + np.arange(0, m * n, n)
+        key += rank[feat]
+        return key.ravel()
     reps = ncand[items.node]
     pair_item = np.repeat(np.arange(items.row.size), reps)
     offsets = np.arange(pair_item.size) - np.repeat(np.cumsum(reps) - reps, reps)
     pair_cand = first[items.node][pair_item] + offsets
-    key = pair_cand * n + data.rank.ravel()[items.row[pair_item] * p + cand_feat[pair_cand]]
-    key.sort()
-    size = np.bincount(items.node, minlength=K)[cand_node]
-    cand_of = np.repeat(np.arange(cand.size), size)
-    flat = cand_feat[cand_of] * n + (key - cand_of * n)
-    cand_tree = node_tree[cand_node]
-    wi = cand_tree[cand_of] * n + data.order.ravel()[flat]
-    return _Segments(cand_node, cand_feat, cand_tree, np.cumsum(size) - size, cand_of,
-                     data.sorted_x.ravel()[flat], wi)
+    return pair_cand * n + rank[items.row[pair_item] * p + cand_feat[pair_cand]]
 
 
 def _running_sums(stats: NDArray[np.float64], seg: _Segments):
@@ -257,15 +287,15 @@ def _running_sums(stats: NDArray[np.float64], seg: _Segments):
     zero (rounding stays at the scale of one segment); sums never cross trees, so a tree's arithmetic does
     not depend on its batch.
     """
-    totals = np.add.reduceat(stats, seg.start, axis=0)
+    totals = np.add.reduceat(stats, seg.start, axis=1)
     tree_first = np.ones(seg.start.size, dtype=bool)
     tree_first[1:] = seg.cand_tree[1:] != seg.cand_tree[:-1]
     restart = np.flatnonzero(~tree_first)
-    stats[seg.start[restart]] -= totals[restart - 1]
+    stats[:, seg.start[restart]] -= totals[:, restart - 1]
     cs = np.empty_like(stats)
-    bounds = np.append(seg.start[tree_first], stats.shape[0])
+    bounds = np.append(seg.start[tree_first], stats.shape[1])
     for lo, hi in zip(bounds[:-1], bounds[1:]):
-        np.cumsum(stats[lo:hi], axis=0, out=cs[lo:hi])
+        np.cumsum(stats[:, lo:hi], axis=1, out=cs[:, lo:hi])
     return cs, totals
 
 
@@ -275,11 +305,12 @@ def _valid_boundaries(seg: _Segments, cs, totals, min_leaf: float):
     valid = np.zeros(L, dtype=bool)
     np.greater(seg.x[1:], seg.x[:-1], out=valid[:-1])
     valid[seg.start[1:] - 1] = False
-    valid &= cs[:, 0] >= min_leaf
-    valid &= totals[seg.cand_of, 0] - cs[:, 0] >= min_leaf
+    if min_leaf > seg.lightest:
+        valid &= cs[0] >= min_leaf
+        valid &= totals[0, seg.cand_of] - cs[0] >= min_leaf
     boundary = np.flatnonzero(valid)
-    left = cs[boundary]
-    right = totals[seg.cand_of[boundary]] - left
+    left = np.take(cs, boundary, axis=1)
+    right = np.take(totals, seg.cand_of[boundary], axis=1) - left
     return boundary, left, right
 
 
