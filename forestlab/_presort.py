@@ -30,6 +30,8 @@ class TrainingData:
         Column 0 is 1 (the weight channel); columns 1.. the splitter's statistics.
     classes : int
         Number of classes, 0 for regression.
+    missing : bool
+        Whether ``X`` holds any missing value (NaN); NaN sorts after every number in ``order``.
     """
 
     X: NDArray[np.float64]
@@ -39,6 +41,7 @@ class TrainingData:
     target: NDArray
     stats: NDArray[np.float64]
     classes: int
+    missing: bool = False
 
     @property
     def rows(self) -> int:
@@ -60,4 +63,5 @@ def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.floa
     stats[:, 0] = 1.0
     stats[:, 1:] = statistics
     return TrainingData(X=X, order=order, sorted_x=sorted_x, rank=np.ascontiguousarray(rank_t.T),
-                        target=target, stats=stats, classes=classes)
+                        target=target, stats=stats, classes=classes,
+                        missing=bool(np.isnan(sorted_x[:, -1]).any()))

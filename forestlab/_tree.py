@@ -35,6 +35,9 @@ class Tree:
         ``W_t i(t) - W_l i(l) - W_r i(r)`` of the node's split (0 at leaves), in weighted cases times impurity.
     depth : ndarray of int32, shape (nodes,)
         Depth of the node; the root has depth 0.
+    missing_left : ndarray of bool, shape (nodes,)
+        Where a case whose split feature is missing (NaN) goes: left when True. Learned with the threshold
+        when the node's training cases had missing values there, else the heavier child. False at leaves.
     """
 
     feature: NDArray[np.int32]
@@ -45,6 +48,7 @@ class Tree:
     cases: NDArray[np.float64]
     impurity_decrease: NDArray[np.float64]
     depth: NDArray[np.int32]
+    missing_left: NDArray[np.bool_]
 
     def __post_init__(self) -> None:
         for f in fields(self):
@@ -73,6 +77,7 @@ class Tree:
             cases=parts["cases"][b].astype(np.float64),
             impurity_decrease=parts["decrease"][b].astype(np.float64),
             depth=parts["depth"][b].astype(np.int32),
+            missing_left=parts["missing_left"][b].astype(np.bool_),
         )
 
     def __repr__(self) -> str:
@@ -86,6 +91,7 @@ def leaf_index(tree: Tree, X: NDArray[np.float64]) -> NDArray[np.int64]:
     """Leaf reached by every row of ``X``, pushing all rows down the tree one level at a time."""
     n, p = X.shape
     flat = X.ravel()
+    gaps = bool(np.isnan(flat).any())
     node = np.zeros(n, dtype=np.int64)
     active = np.arange(n)
     while active.size:
@@ -95,6 +101,10 @@ def leaf_index(tree: Tree, X: NDArray[np.float64]) -> NDArray[np.int64]:
         if inner.size == 0:
             break
         active, here, feature = active[inner], here[inner], feature[inner]
-        go_right = flat[active * p + feature] > tree.threshold[here]
+        value = flat[active * p + feature]
+        go_right = value > tree.threshold[here]
+        if gaps:
+            gap = np.flatnonzero(np.isnan(value))
+            go_right[gap] = ~tree.missing_left[here[gap]]
         node[active] = tree.left[here] + go_right
     return node

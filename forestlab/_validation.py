@@ -125,7 +125,7 @@ def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth
 
 
 def check_X(X: Any, name: str = "X", features: int | None = None) -> NDArray[np.float64]:
-    """A finite, numeric, non-empty 2-D float64 array (C-contiguous) from array-like ``X``."""
+    """A numeric, non-empty 2-D float64 array (C-contiguous) from array-like ``X``; NaN marks a missing value."""
     try:
         arr = np.asarray(X)
     except (ValueError, TypeError) as exc:
@@ -139,12 +139,12 @@ def check_X(X: Any, name: str = "X", features: int | None = None) -> NDArray[np.
     if features is not None and arr.shape[1] != features:
         raise ValueError(f"`{name}` must have {features} features, as in training; got {arr.shape[1]}")
     arr = np.ascontiguousarray(arr, dtype=np.float64)
-    bad = ~np.isfinite(arr)
+    bad = np.isinf(arr)
     if bad.any():
         rows, cols = np.nonzero(bad)
         raise ValueError(
-            f"`{name}` holds {bad.sum()} NaN or infinite value(s), first at row {rows[0]}, column {cols[0]}; "
-            "forestlab needs finite predictors"
+            f"`{name}` holds {bad.sum()} infinite value(s), first at row {rows[0]}, column {cols[0]}; "
+            "predictors must be finite numbers or NaN for a missing value"
         )
     return arr
 

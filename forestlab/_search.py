@@ -1,0 +1,231 @@
+"""Exact best-split search for every open node of a level at once.
+
+All (node, candidate feature) pairs are sorted with one ``np.sort`` of packed keys ``candidate * n + rank``;
+running sums of the weighted statistics, restarted per segment, give the left-child statistics at every
+boundary between distinct values, and the splitter scores all of them in one call. Missing values (NaN)
+sort last within each segment; every boundary is scored twice when the segment holds missing cases (missing
+sent right, then left) and the better option is kept. See ``ENGINE.md`` for the shapes.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ._presort import TrainingData
+from ._splitter import CartSplitter
+
+__all__ = ["Items", "Splits", "best_splits", "checked_impurity"]
+
+TIE_TOLERANCE = 1e-12
+
+
+@dataclass
+class Items:
+    """The open (tree, row) pairs of one level; ``node`` indexes the level's open nodes."""
+
+    row: NDArray[np.int64]
+    node: NDArray[np.int64]
+
+    def take(self, keep: NDArray[np.intp]) -> Items:
+        return Items(self.row[keep], self.node[keep])
+
+
+@dataclass
+class Splits:
+    """Best split per node of a level (entries of nodes without a valid split are unused)."""
+
+    found: NDArray[np.bool_]
+    feature: NDArray[np.int64]
+    threshold: NDArray[np.float64]
+    decrease: NDArray[np.float64]
+    missing_left: NDArray[np.bool_]
+
+    @classmethod
+    def none(cls, nodes: int) -> Splits:
+        return cls(np.zeros(nodes, bool), np.full(nodes, -1), np.full(nodes, np.nan), np.zeros(nodes),
+                   np.zeros(nodes, bool))
+
+    def update(self, where: NDArray, other: Splits, other_where: NDArray | slice = slice(None)) -> None:
+        """Copy ``other``'s entries at ``other_where`` into this one's at ``where``."""
+        for name in ("found", "feature", "threshold", "decrease", "missing_left"):
+            getattr(self, name)[where] = getattr(other, name)[other_where]
+
+
+def checked_impurity(splitter: CartSplitter, S: NDArray[np.float64]) -> NDArray[np.float64]:
+    """``splitter.impurity`` with a check that it stayed finite during growth."""
+    imp = splitter.impurity(S)
+    if not np.all(np.isfinite(imp)):
+        raise FloatingPointError(f"{type(splitter).__name__}.impurity returned a non-finite value during growth")
+    return imp
+
+
+@dataclass
+class _Segments:
+    """The rows of every (node, candidate feature) pair, sorted by that feature, concatenated."""
+
+    cand_node: NDArray[np.int64]   # (C,) node of each candidate
+    cand_feat: NDArray[np.int64]   # (C,) feature of each candidate
+    cand_tree: NDArray[np.int64]   # (C,) batch slot of each candidate
+    start: NDArray[np.int64]       # (C,) first element of each candidate's segment
+    cand_of: NDArray[np.int64]     # (L,) candidate of each element
+    x: NDArray[np.float64]         # (L,) feature value of each element (non-decreasing, NaN last)
+    wi: NDArray[np.int64]          # (L,) index of each element's (tree, row) in the weighted statistics
+
+
+def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, stats, lightest: float,
+                items: Items, node_tree, mask, parent) -> Splits:
+    """Exact best split of every node over its candidate features.
+
+    Ties (scores within a relative 1e-12): lowest feature, then smallest threshold, then missing cases sent
+    right. ``stats`` is the batch's channel-major weighted statistics, ``parent`` the nodes' ``W * i(t)``.
+    """
+    out = Splits.none(mask.shape[0])
+    cand = np.flatnonzero(mask)
+    if cand.size == 0 or items.row.size == 0:
+        return out
+    seg = _sorted_segments(data, items, node_tree, mask, cand)
+    elem = np.take(stats, seg.wi, axis=1)
+    missing = _missing_totals(seg, elem) if data.missing else None
+    cs, totals = _running_sums(elem, seg)
+    cut = _distinct_cuts(seg)
+    left = np.take(cs, cut, axis=1)
+    right = np.take(totals, seg.cand_of[cut], axis=1) - left
+    node = seg.cand_node[seg.cand_of[cut]]
+    score, to_left = _scores(splitter, min_leaf, lightest, left, right, parent[node],
+                             None if missing is None else np.take(missing, seg.cand_of[cut], axis=1))
+    ok = np.flatnonzero(score > -np.inf)
+    if ok.size == 0:
+        return out
+    nodes, pick = _argmax_per_node(node[ok], score[ok], parent)
+    pick = ok[pick]
+    e = cut[pick]
+    lo, hi = seg.x[e], seg.x[e + 1]
+    threshold = 0.5 * lo + 0.5 * hi
+    out.found[nodes] = True
+    out.feature[nodes] = seg.cand_feat[seg.cand_of[e]]
+    out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
+    out.decrease[nodes] = score[pick]
+    out.missing_left[nodes] = to_left[pick]
+    return out
+
+
+def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand) -> _Segments:
+    """Sort all (candidate, row) pairs of a level with one ``np.sort`` of packed keys."""
+    n, p = data.rows, data.features
+    K = mask.shape[0]
+    cand_node, cand_feat = np.divmod(cand, p)
+    ncand = np.bincount(cand_node, minlength=K)
+    first = np.cumsum(ncand) - ncand
+    key = _packed_keys(data, items, cand_feat, ncand, first)
+    key.sort()
+    size = np.bincount(items.node, minlength=K)[cand_node]
+    cand_of = np.repeat(np.arange(cand.size), size)
+    flat = key + np.repeat((cand_feat - np.arange(cand.size)) * n, size)
+    cand_tree = node_tree[cand_node]
+    wi = data.order.ravel()[flat]
+    if cand_tree[-1] > 0:
+        wi += np.repeat(cand_tree * n, size)
+    return _Segments(cand_node, cand_feat, cand_tree, np.cumsum(size) - size, cand_of,
+                     data.sorted_x.ravel()[flat], wi)
+
+
+def _packed_keys(data: TrainingData, items: Items, cand_feat, ncand, first) -> NDArray[np.int64]:
+    """``candidate * n + rank[row, feature]`` for every (item, candidate of its node) pair."""
+    n, p = data.rows, data.features
+    rank = data.rank.ravel()
+    m = int(ncand[0])
+    if m and np.all(ncand == m):
+        feat = cand_feat.reshape(-1, m)[items.node]
+        feat += (items.row * p)[:, None]
+        key = (first[items.node] * n)[:, None] + np.arange(0, m * n, n)
+        key += rank[feat]
+        return key.ravel()
+    reps = ncand[items.node]
+    pair_item = np.repeat(np.arange(items.row.size), reps)
+    offsets = np.arange(pair_item.size) - np.repeat(np.cumsum(reps) - reps, reps)
+    pair_cand = first[items.node][pair_item] + offsets
+    return pair_cand * n + rank[items.row[pair_item] * p + cand_feat[pair_cand]]
+
+
+def _missing_totals(seg: _Segments, elem: NDArray[np.float64]) -> NDArray[np.float64] | None:
+    """Summed statistics of each segment's missing cases, shape (1+s, C); None if there are none."""
+    missing = np.flatnonzero(np.isnan(seg.x))
+    if missing.size == 0:
+        return None
+    C = seg.start.size
+    return np.stack([np.bincount(seg.cand_of[missing], weights=channel[missing], minlength=C)
+                     for channel in elem])
+
+
+def _running_sums(stats: NDArray[np.float64], seg: _Segments):
+    """Running sums of the statistics restarted at every segment, and each segment's total.
+
+    Each segment start gets the previous segment's total subtracted so one ``cumsum`` per tree restarts near
+    zero (rounding stays at the scale of one segment); sums never cross trees, so a tree's arithmetic does
+    not depend on its batch. ``stats`` is modified in place.
+    """
+    totals = np.add.reduceat(stats, seg.start, axis=1)
+    tree_first = np.ones(seg.start.size, dtype=bool)
+    tree_first[1:] = seg.cand_tree[1:] != seg.cand_tree[:-1]
+    restart = np.flatnonzero(~tree_first)
+    stats[:, seg.start[restart]] -= totals[:, restart - 1]
+    cs = np.empty_like(stats)
+    bounds = np.append(seg.start[tree_first], stats.shape[1])
+    for lo, hi in zip(bounds[:-1], bounds[1:]):
+        np.cumsum(stats[:, lo:hi], axis=1, out=cs[:, lo:hi])
+    return cs, totals
+
+
+def _distinct_cuts(seg: _Segments) -> NDArray[np.intp]:
+    """Elements followed, in the same segment, by a strictly larger (non-missing) value."""
+    valid = np.zeros(seg.x.size, dtype=bool)
+    np.greater(seg.x[1:], seg.x[:-1], out=valid[:-1])
+    valid[seg.start[1:] - 1] = False
+    return np.flatnonzero(valid)
+
+
+def _scores(splitter, min_leaf, lightest, left, right, parent, missing):
+    """Impurity decrease of every cut (-inf where no option is allowed) and whether missing go left.
+
+    Option A sends the segment's missing cases right (they sort last, so ``right`` already holds them);
+    option B sends them left. B is taken only where it beats A by more than the tie tolerance. A split
+    that saw no missing case sends them to the heavier child (left on ties).
+    """
+    score = _decrease(splitter, left, right, parent)
+    if min_leaf > lightest:
+        score[(left[0] < min_leaf) | (right[0] < min_leaf)] = -np.inf
+    larger_left = left[0] >= right[0]
+    if missing is None:
+        return score, larger_left
+    has = np.flatnonzero(missing[0] > 0)
+    left_b = left[:, has] + missing[:, has]
+    right_b = right[:, has] - missing[:, has]
+    score_b = _decrease(splitter, left_b, right_b, parent[has])
+    if min_leaf > lightest:
+        score_b[(left_b[0] < min_leaf) | (right_b[0] < min_leaf)] = -np.inf
+    better = score_b > score[has] + TIE_TOLERANCE * np.abs(parent[has])
+    score[has[better]] = score_b[better]
+    # where the segment saw missing cases they go right unless B won; elsewhere to the heavier child
+    to_left = larger_left
+    to_left[has] = better
+    return score, to_left
+
+
+def _decrease(splitter, left, right, parent):
+    """``W_t i(t) - W_l i(l) - W_r i(r)`` for channel-major left and right statistics."""
+    return parent - left[0] * checked_impurity(splitter, left.T) - right[0] * checked_impurity(splitter, right.T)
+
+
+def _argmax_per_node(node, score, parent):
+    """First cut per node whose score is within the tie tolerance of the node's best."""
+    starts = np.flatnonzero(np.r_[True, node[1:] != node[:-1]])
+    nodes = node[starts]
+    best = np.maximum.reduceat(score, starts)
+    scale = np.maximum(np.abs(best), np.abs(parent[nodes]))
+    group = np.repeat(np.arange(starts.size), np.diff(np.append(starts, score.size)))
+    tied = score >= (best - TIE_TOLERANCE * scale)[group]
+    pick = np.minimum.reduceat(np.where(tied, np.arange(score.size), score.size), starts)
+    return nodes, pick
