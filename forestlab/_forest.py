@@ -3,18 +3,21 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from ._categorical import apply_levels, encode_columns
 from ._grow import GrowthRules, grow_batch
 from ._presort import TrainingData, presort
 from ._sampler import CandidateSampler
 from ._seeding import check_rng, root_seed, tree_seed
 from ._splitter import CartSplitter, GiniSplitter, SquaredErrorSplitter
 from ._tree import Tree, leaf_index
-from ._validation import Settings, Target, check_settings, check_splitter_output, check_X, check_y
+from ._validation import (Settings, Target, check_settings, check_splitter_output, check_X, check_y,
+                          resolve_categorical)
 
 __all__ = ["Forest"]
 
@@ -23,7 +26,7 @@ BATCH_ITEMS = 65_536
 MAX_BATCH = 64
 
 _DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "depth_limit": None,
-             "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1}
+             "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None}
 
 
 class Forest:
@@ -61,6 +64,12 @@ class Forest:
         classification; a splitter's own task takes precedence over the inference.
     workers : int, default 1
         Local processes to grow trees in.
+    categorical : sequence of int or str, optional
+        Features (positions, or column names) whose values are category labels rather than quantities.
+        A split on one sends a subset of its categories left, found exactly for two classes and for
+        regression (Breiman et al. 1984, section 9.4) and by the principal-component ordering of Coppersmith,
+        Hong & Hosking (1999) for more classes. Any real values serve as labels (NaN is missing); a category
+        not seen where a split was learned goes where that split sends missing values.
 
     Attributes
     ----------
@@ -100,9 +109,10 @@ class Forest:
     def __init__(self, trees: int = 500, *, sampler: CandidateSampler | int | float | str | None = None,
                  splitter: CartSplitter | str | None = None, min_leaf: float | None = None,
                  depth_limit: int | None = None, sample_size: int | float | None = None, replace: bool = True,
-                 rng: Any = None, task: str | None = None, workers: int = 1) -> None:
+                 rng: Any = None, task: str | None = None, workers: int = 1,
+                 categorical: Sequence[int | str] | None = None) -> None:
         self._settings: Settings = check_settings(trees, sampler, splitter, min_leaf, depth_limit, sample_size,
-                                                  replace, task, workers)
+                                                  replace, task, workers, categorical)
         check_rng(rng)
         self._rng = rng
         self._trees: list[Tree] = []
@@ -153,7 +163,7 @@ class Forest:
                  "splitter": self._settings.splitter, "min_leaf": self._settings.min_leaf,
                  "depth_limit": self._settings.depth_limit, "sample_size": self._settings.sample_size,
                  "replace": self._settings.replace, "rng": self._rng, "task": self._settings.task,
-                 "workers": self._settings.workers}
+                 "workers": self._settings.workers, "categorical": self._settings.categorical}
         if repr(given["sampler"]) == "RandomSubset(None)":
             given["sampler"] = None
         shown = [f"{k}={v!r}" for k, v in given.items() if v is not _DEFAULTS[k] and v != _DEFAULTS[k]]
@@ -171,7 +181,13 @@ class Forest:
         target = check_y(y, X.shape[0], self._task_for())
         rules = self._resolve_rules(target, X.shape)
         stats = check_splitter_output(rules.splitter, target)
-        self._data = presort(X, target.values, stats, 0 if target.classes is None else target.classes.size)
+        columns = resolve_categorical(self._settings.categorical, X.shape[1])
+        X, self._levels = encode_columns(X, columns)
+        categories = np.zeros(X.shape[1], dtype=np.int64)
+        for j, values in self._levels.items():
+            categories[j] = values.size
+        self._data = presort(X, target.values, stats, 0 if target.classes is None else target.classes.size,
+                             categories)
         self._rules = rules
         self.task = target.task
         self.classes = target.classes
@@ -245,7 +261,7 @@ class Forest:
         X = self._check_predict_X(X)
         out = np.empty((len(self._trees), X.shape[0]))
         for b, tree in enumerate(self._trees):
-            out[b] = tree.value[leaf_index(tree, X)]
+            out[b] = tree.value[leaf_index(tree, X, self._data.categories)]
         return out.astype(np.int64) if self.task == "classification" else out
 
     def votes(self, X: ArrayLike) -> NDArray[np.float64]:
@@ -268,7 +284,7 @@ class Forest:
 
     def _check_predict_X(self, X: ArrayLike) -> NDArray[np.float64]:
         self._check_fitted()
-        return check_X(X, features=self.features)
+        return apply_levels(check_X(X, features=self.features), self._levels)
 
 
 def _vote_shares(per_tree: NDArray[np.int64], classes: int) -> NDArray[np.float64]:

@@ -18,7 +18,7 @@ from ._presort import TrainingData
 from ._sampler import CandidateSampler
 from ._splitter import CartSplitter
 from ._search import Items, Splits, best_splits, checked_impurity
-from ._tree import TreeArrays
+from ._tree import TreeArrays, goes_right
 
 __all__ = ["GrowthRules", "grow_batch"]
 
@@ -104,7 +104,7 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, base, dept
     if rules.depth_limit is not None and depth >= rules.depth_limit:
         closed[:] = True
     open_nodes = np.flatnonzero(~closed)
-    splits = Splits.none(K)
+    splits = Splits.none(K, data.category_words)
     if open_nodes.size:
         splits.update(open_nodes, _search_open(data, rules, gens, subspace, batch, items, node_tree, totals,
                                                weight, closed, open_nodes))
@@ -118,6 +118,7 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, base, dept
         "threshold": np.where(splits.found, splits.threshold, np.nan), "left": left, "value": value,
         "cases": weight, "decrease": np.where(splits.found, splits.decrease, 0.0),
         "depth": np.full(K, depth, dtype=np.int64), "missing_left": splits.missing_left & splits.found,
+        "category_left": splits.category_left,
     }
     next_items = _partition(data, items, splits)
     return record, next_items, np.repeat(node_tree[split_nodes], 2), base + level_size
@@ -129,7 +130,9 @@ def _node_summaries(data: TrainingData, batch, items: Items, wi, K: int):
     totals = np.stack([np.bincount(items.node, weights=channel, minlength=K) for channel in item_stats], axis=1)
     weight = totals[:, 0]
     y = data.target[items.row]
-    if data.classes:
+    if data.classes and totals.shape[1] == 1 + data.classes:
+        value = np.argmax(totals[:, 1:], axis=1).astype(np.float64)
+    elif data.classes:
         by_class = np.bincount(items.node * data.classes + y, weights=item_stats[0],
                                minlength=K * data.classes).reshape(K, data.classes)
         value = np.argmax(by_class, axis=1).astype(np.float64)
@@ -185,11 +188,8 @@ def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
     """Send the items of split nodes to their children (order within each tree kept)."""
     keep = np.flatnonzero(splits.found[items.node])
     row, node = items.row[keep], items.node[keep]
-    value = data.X.ravel()[row * data.features + splits.feature[node]]
-    go_right = value > splits.threshold[node]
-    if data.missing:
-        gap = np.flatnonzero(np.isnan(value))
-        go_right[gap] = ~splits.missing_left[node[gap]]
+    go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
+                          splits.category_left, data.categories)
     child_rank = np.cumsum(splits.found) - 1
     return Items(row, 2 * child_rank[node] + go_right)
 

@@ -7,6 +7,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from ._categorical import words_for
+
 __all__ = ["TrainingData", "presort"]
 
 
@@ -32,6 +34,9 @@ class TrainingData:
         Number of classes, 0 for regression.
     missing : bool
         Whether ``X`` holds any missing value (NaN); NaN sorts after every number in ``order``.
+    categories : ndarray of int64, shape (p,)
+        Number of categories of each categorical feature (whose column holds codes ``0..k-1``), 0 for
+        numeric features.
     """
 
     X: NDArray[np.float64]
@@ -42,6 +47,12 @@ class TrainingData:
     stats: NDArray[np.float64]
     classes: int
     missing: bool = False
+    categories: NDArray[np.int64] | None = None
+
+    @property
+    def category_words(self) -> int:
+        """uint64 words of a left-category bit set (0 without categorical features)."""
+        return 0 if self.categories is None else words_for(int(self.categories.max()))
 
     @property
     def rows(self) -> int:
@@ -52,7 +63,8 @@ class TrainingData:
         return self.X.shape[1]
 
 
-def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.float64], classes: int) -> TrainingData:
+def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.float64], classes: int,
+            categories: NDArray[np.int64] | None = None) -> TrainingData:
     """Sort every feature once and pack the per-case statistics with a weight channel."""
     n, p = X.shape
     order = np.ascontiguousarray(np.argsort(X, axis=0, kind="stable").T.astype(np.int32))
@@ -64,4 +76,5 @@ def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.floa
     stats[:, 1:] = statistics
     return TrainingData(X=X, order=order, sorted_x=sorted_x, rank=np.ascontiguousarray(rank_t.T),
                         target=target, stats=stats, classes=classes,
-                        missing=bool(np.isnan(sorted_x[:, -1]).any()))
+                        missing=bool(np.isnan(sorted_x[:, -1]).any()),
+                        categories=None if categories is None or not np.any(categories) else categories)

@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from ._categorical import category_order, left_sets
 from ._presort import TrainingData
 from ._splitter import CartSplitter
 
@@ -42,15 +43,16 @@ class Splits:
     threshold: NDArray[np.float64]
     decrease: NDArray[np.float64]
     missing_left: NDArray[np.bool_]
+    category_left: NDArray[np.uint64]  # (nodes, words) left-category bit sets of categorical splits
 
     @classmethod
-    def none(cls, nodes: int) -> Splits:
+    def none(cls, nodes: int, words: int) -> Splits:
         return cls(np.zeros(nodes, bool), np.full(nodes, -1), np.full(nodes, np.nan), np.zeros(nodes),
-                   np.zeros(nodes, bool))
+                   np.zeros(nodes, bool), np.zeros((nodes, words), dtype=np.uint64))
 
     def update(self, where: NDArray, other: Splits, other_where: NDArray | slice = slice(None)) -> None:
         """Copy ``other``'s entries at ``other_where`` into this one's at ``where``."""
-        for name in ("found", "feature", "threshold", "decrease", "missing_left"):
+        for name in ("found", "feature", "threshold", "decrease", "missing_left", "category_left"):
             getattr(self, name)[where] = getattr(other, name)[other_where]
 
 
@@ -71,8 +73,9 @@ class _Segments:
     cand_tree: NDArray[np.int64]   # (C,) batch slot of each candidate
     start: NDArray[np.int64]       # (C,) first element of each candidate's segment
     cand_of: NDArray[np.int64]     # (L,) candidate of each element
-    x: NDArray[np.float64]         # (L,) feature value of each element (non-decreasing, NaN last)
+    x: NDArray[np.float64]         # (L,) feature value (category position for categorical), NaN last
     wi: NDArray[np.int64]          # (L,) index of each element's (tree, row) in the weighted statistics
+    row: NDArray[np.int64]         # (L,) training row of each element
 
 
 def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, stats, lightest: float,
@@ -82,11 +85,12 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
     Ties (scores within a relative 1e-12): lowest feature, then smallest threshold, then missing cases sent
     right. ``stats`` is the batch's channel-major weighted statistics, ``parent`` the nodes' ``W * i(t)``.
     """
-    out = Splits.none(mask.shape[0])
+    out = Splits.none(mask.shape[0], data.category_words)
     cand = np.flatnonzero(mask)
     if cand.size == 0 or items.row.size == 0:
         return out
     seg = _sorted_segments(data, items, node_tree, mask, cand)
+    order = _order_categories(data, seg, stats[0]) if data.category_words else None
     elem = np.take(stats, seg.wi, axis=1)
     missing = _missing_totals(seg, elem) if data.missing else None
     cs, totals = _running_sums(elem, seg)
@@ -109,7 +113,62 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
     out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
     out.decrease[nodes] = score[pick]
     out.missing_left[nodes] = to_left[pick]
+    if order is not None:
+        _record_category_sets(out, order, nodes, seg.cand_of[e], lo, data.category_words)
     return out
+
+
+@dataclass
+class _CategoryOrder:
+    """Per categorical candidate: its index among them, category positions and weights."""
+
+    local: NDArray[np.int64]      # (C,) index among categorical candidates, -1 for numeric ones
+    pos: NDArray[np.int64]        # (Cc, k) position of each category in the candidate's order
+    weight: NDArray[np.float64]   # (Cc, k) case weight of each category in the node
+
+
+def _order_categories(data: TrainingData, seg: _Segments, weights) -> _CategoryOrder | None:
+    """Order each categorical candidate's categories and re-sort its elements by that order (in place)."""
+    is_cat = data.categories[seg.cand_feat] > 0
+    if not is_cat.any():
+        return None
+    k = int(data.categories.max())
+    local = np.full(is_cat.size, -1, dtype=np.int64)
+    local[is_cat] = np.arange(np.count_nonzero(is_cat))
+    el = np.flatnonzero(is_cat[seg.cand_of])
+    code, w, lc = seg.x[el], weights[seg.wi[el]], local[seg.cand_of[el]]
+    seen = ~np.isnan(code)
+    slot = lc[seen] * k + code[seen].astype(np.int64)
+    cells = int(lc[-1] + 1) * k
+    weight = np.bincount(slot, weights=w[seen], minlength=cells).reshape(-1, k)
+    y = data.target[seg.row[el][seen]]
+    by_class, response = None, None
+    if data.classes > 2:
+        by_class = np.bincount(slot * data.classes + y, weights=w[seen],
+                               minlength=cells * data.classes).reshape(-1, k, data.classes)
+    else:
+        response = np.bincount(slot, weights=w[seen] * y, minlength=cells).reshape(-1, k)
+    pos = category_order(weight, response, by_class)
+    position = np.full(el.size, float(k))
+    position[seen] = pos.ravel()[slot]
+    perm = np.argsort(lc * (k + 1) + position.astype(np.int64), kind="stable")
+    position[~seen] = np.nan
+    seg.x[el] = position[perm]
+    seg.wi[el] = seg.wi[el][perm]
+    seg.row[el] = seg.row[el][perm]
+    return _CategoryOrder(local, pos, weight)
+
+
+def _record_category_sets(out: Splits, order: _CategoryOrder, nodes, cand, cut_position, words: int) -> None:
+    """Left-category bit sets of the nodes whose chosen split is categorical; their threshold becomes NaN."""
+    lc = order.local[cand]
+    is_cat = lc >= 0
+    if not is_cat.any():
+        return
+    chosen = nodes[is_cat]
+    out.category_left[chosen] = left_sets(order.pos[lc[is_cat]], order.weight[lc[is_cat]],
+                                          cut_position[is_cat], out.missing_left[chosen], words)
+    out.threshold[chosen] = np.nan
 
 
 def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand) -> _Segments:
@@ -125,11 +184,10 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand) ->
     cand_of = np.repeat(np.arange(cand.size), size)
     flat = key + np.repeat((cand_feat - np.arange(cand.size)) * n, size)
     cand_tree = node_tree[cand_node]
-    wi = data.order.ravel()[flat]
-    if cand_tree[-1] > 0:
-        wi += np.repeat(cand_tree * n, size)
+    row = data.order.ravel()[flat].astype(np.int64)
+    wi = row + np.repeat(cand_tree * n, size) if cand_tree[-1] > 0 else row.copy()
     return _Segments(cand_node, cand_feat, cand_tree, np.cumsum(size) - size, cand_of,
-                     data.sorted_x.ravel()[flat], wi)
+                     data.sorted_x.ravel()[flat], wi, row)
 
 
 def _packed_keys(data: TrainingData, items: Items, cand_feat, ncand, first) -> NDArray[np.int64]:

@@ -7,7 +7,9 @@ from dataclasses import dataclass, fields
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["Tree", "TreeArrays", "leaf_index"]
+from ._categorical import in_left_set
+
+__all__ = ["Tree", "TreeArrays", "goes_right", "leaf_index"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -38,6 +40,10 @@ class Tree:
     missing_left : ndarray of bool, shape (nodes,)
         Where a case whose split feature is missing (NaN) goes: left when True. Learned with the threshold
         when the node's training cases had missing values there, else the heavier child. False at leaves.
+    category_left : ndarray of uint64, shape (nodes, words)
+        At a split on a categorical feature (``threshold`` is NaN there): bit ``c`` set when category code
+        ``c`` goes left. A category the node never saw goes where missing values go. ``words`` is 0 when
+        the forest has no categorical feature.
     """
 
     feature: NDArray[np.int32]
@@ -49,6 +55,7 @@ class Tree:
     impurity_decrease: NDArray[np.float64]
     depth: NDArray[np.int32]
     missing_left: NDArray[np.bool_]
+    category_left: NDArray[np.uint64]
 
     def __post_init__(self) -> None:
         for f in fields(self):
@@ -78,6 +85,7 @@ class Tree:
             impurity_decrease=parts["decrease"][b].astype(np.float64),
             depth=parts["depth"][b].astype(np.int32),
             missing_left=parts["missing_left"][b].astype(np.bool_),
+            category_left=parts["category_left"][b].astype(np.uint64),
         )
 
     def __repr__(self) -> str:
@@ -87,24 +95,33 @@ class Tree:
 TreeArrays = Tree
 
 
-def leaf_index(tree: Tree, X: NDArray[np.float64]) -> NDArray[np.int64]:
+def goes_right(X: NDArray[np.float64], row, node, feature, threshold, missing_left, category_left,
+               categories) -> NDArray[np.bool_]:
+    """Whether each (row, node) pair goes to the node's right child: value above the threshold, the missing
+    side for NaN, the left-category set for a categorical split."""
+    value = X.ravel()[row * X.shape[1] + feature[node]]
+    right = value > threshold[node]
+    gap = np.isnan(value)
+    if categories is not None:
+        coded = np.flatnonzero((categories[feature[node]] > 0) & ~gap)
+        if coded.size:
+            right[coded] = ~in_left_set(category_left[node[coded]], value[coded])
+    gap = np.flatnonzero(gap)
+    if gap.size:
+        right[gap] = ~missing_left[node[gap]]
+    return right
+
+
+def leaf_index(tree: Tree, X: NDArray[np.float64], categories: NDArray[np.int64] | None = None) -> NDArray[np.int64]:
     """Leaf reached by every row of ``X``, pushing all rows down the tree one level at a time."""
-    n, p = X.shape
-    flat = X.ravel()
-    gaps = bool(np.isnan(flat).any())
-    node = np.zeros(n, dtype=np.int64)
-    active = np.arange(n)
+    node = np.zeros(X.shape[0], dtype=np.int64)
+    active = np.arange(X.shape[0])
     while active.size:
         here = node[active]
-        feature = tree.feature[here]
-        inner = np.flatnonzero(feature >= 0)
+        inner = np.flatnonzero(tree.feature[here] >= 0)
         if inner.size == 0:
             break
-        active, here, feature = active[inner], here[inner], feature[inner]
-        value = flat[active * p + feature]
-        go_right = value > tree.threshold[here]
-        if gaps:
-            gap = np.flatnonzero(np.isnan(value))
-            go_right[gap] = ~tree.missing_left[here[gap]]
-        node[active] = tree.left[here] + go_right
+        active, here = active[inner], here[inner]
+        node[active] = tree.left[here] + goes_right(X, active, here, tree.feature, tree.threshold,
+                                                    tree.missing_left, tree.category_left, categories)
     return node

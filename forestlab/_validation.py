@@ -17,7 +17,8 @@ from ._sampler import CandidateSampler, RandomSubset
 from ._splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from ._warnings import SingleClassWarning
 
-__all__ = ["Settings", "check_settings", "check_X", "check_y", "Target", "check_splitter_output"]
+__all__ = ["Settings", "check_settings", "check_X", "check_y", "Target", "check_splitter_output",
+           "resolve_categorical"]
 
 SPLITTER_NAMES = {"entropy": EntropySplitter, "gini": GiniSplitter, "squared_error": SquaredErrorSplitter}
 
@@ -35,6 +36,7 @@ class Settings:
     replace: bool
     task: str | None
     workers: int
+    categorical: tuple[int | str, ...] | None = None
 
 
 def _int_at_least(value: Any, name: str, low: int) -> int:
@@ -101,8 +103,47 @@ def _check_min_leaf(value: Any) -> float | None:
     return float(value)
 
 
+def _check_categorical(value: Any) -> tuple[int | str, ...] | None:
+    if value is None:
+        return None
+    if isinstance(value, (str, numbers.Integral)):
+        value = [value]
+    try:
+        entries = tuple(value)
+    except TypeError:
+        raise TypeError(f"`categorical` must be a sequence of column positions or names; got "
+                        f"{type(value).__name__}") from None
+    for entry in entries:
+        if isinstance(entry, (bool, np.bool_)) or not isinstance(entry, (numbers.Integral, str)):
+            raise TypeError(f"`categorical` entries must be int positions or str names; got {entry!r}")
+    if len(set(entries)) != len(entries):
+        raise ValueError(f"`categorical` lists a column twice: {list(entries)}")
+    return tuple(e if isinstance(e, str) else int(e) for e in entries)
+
+
+def resolve_categorical(spec: tuple[int | str, ...] | None, features: int,
+                        names: list[str] | None = None) -> list[int]:
+    """Positions of the categorical features, checked against the data's width (and column names)."""
+    if not spec:
+        return []
+    positions = []
+    for entry in spec:
+        if isinstance(entry, str):
+            if names is None or entry not in names:
+                known = "the data has no column names" if names is None else f"columns are {names}"
+                raise ValueError(f"`categorical` names column {entry!r}, but {known}")
+            positions.append(names.index(entry))
+        elif not -features <= entry < features:
+            raise ValueError(f"`categorical` position {entry} is out of range for {features} features")
+        else:
+            positions.append(entry % features)
+    if len(set(positions)) != len(positions):
+        raise ValueError(f"`categorical` lists a column twice: {list(spec)}")
+    return sorted(positions)
+
+
 def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth_limit: Any,
-                   sample_size: Any, replace: Any, task: Any, workers: Any) -> Settings:
+                   sample_size: Any, replace: Any, task: Any, workers: Any, categorical: Any = None) -> Settings:
     """Validate the Forest constructor arguments."""
     if task is not None and task not in TASKS:
         raise ValueError(f"`task` must be one of {sorted(TASKS)} or None; got {task!r}")
@@ -118,6 +159,7 @@ def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth
         replace=bool(replace),
         task=task,
         workers=_int_at_least(workers, "workers", 1),
+        categorical=_check_categorical(categorical),
     )
     if settings.splitter is not None and task is not None and settings.splitter.task != task:
         raise ValueError(f"`splitter` {settings.splitter!r} is for {settings.splitter.task}, but `task` is {task!r}")
