@@ -13,7 +13,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ._sampler import CandidateSampler, RandomSubset
+from ._sampler import CandidateSampler, RandomSubset, _check_size
 from ._splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from ._warnings import SingleClassWarning
 
@@ -55,7 +55,7 @@ def _check_sampler(sampler: Any) -> CandidateSampler:
     if isinstance(sampler, type) and issubclass(sampler, CandidateSampler):
         raise TypeError(f"`sampler` must be a sampler instance such as {sampler.__name__}(); got the class")
     if isinstance(sampler, (str, numbers.Real)) and not isinstance(sampler, (bool, np.bool_)):
-        return RandomSubset(sampler)
+        return RandomSubset(_check_size(sampler, "sampler"))
     raise TypeError(
         "`sampler` must be a CandidateSampler (AllFeatures(), RandomSubset(m), TreeSubspace(m)), "
         f"a candidate count, a fraction, 'sqrt' or 'log2'; got {type(sampler).__name__}"
@@ -245,7 +245,7 @@ def _encode_classes(arr: NDArray) -> Target:
     except TypeError:
         raise TypeError("`y` labels must be mutually comparable (e.g. all strings or all numbers)") from None
     if classes.size == 1:
-        warnings.warn(f"`y` holds a single class ({classes[0]!r}); every tree will predict it",
+        warnings.warn(f"`y` holds a single class ({classes[0].item()!r}); every tree will predict it",
                       SingleClassWarning, stacklevel=4)
     return Target("classification", codes.reshape(-1).astype(np.int64), classes)
 

@@ -1,0 +1,260 @@
+"""Candidate-feature samplers: sizes, the masks the engine really uses, the subspace method, user samplers.
+
+References: random forest with ``m`` candidates per split and ``m = int(log2 p + 1)`` (Breiman 2001, "Random
+forests", Machine Learning 45:5-32, section 5); defaults ``floor(sqrt p)`` for classification and
+``max(1, floor(p/3))`` for regression (common practice); one subset per tree (Ho 1998, "The random subspace
+method for constructing decision forests", IEEE TPAMI 20(8):832-844).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+import forestlab as fl
+import forestlab._grow as grow
+
+
+@pytest.fixture
+def recorded_masks(monkeypatch):
+    """Every candidate mask the engine draws during a fit, in order."""
+    masks = []
+    original = grow.checked_mask
+
+    def spy(sampler, rng, nodes, features):
+        mask = original(sampler, rng, nodes, features)
+        masks.append(mask.copy())
+        return mask
+
+    monkeypatch.setattr(grow, "checked_mask", spy)
+    return masks
+
+
+def problem(p, n=120, task="classification", seed=0):
+    rng = np.random.default_rng(seed)
+    X = rng.normal(size=(n, p))
+    signal = X[:, : min(p, 3)].sum(axis=1)
+    y = (signal > 0).astype(int) if task == "classification" else signal + rng.normal(size=n)
+    return X, y
+
+
+def split_features(tree):
+    return set(tree.feature[tree.feature >= 0].tolist())
+
+
+class TestCandidateSampler:
+    """The abstract base and user subclasses."""
+
+    def test_candidate_sampler_iv(self):
+        class WrongShape(fl.CandidateSampler):
+            def draw(self, rng, nodes, features):
+                return np.ones((nodes, features + 1), dtype=bool)
+
+        class WrongDtype(fl.CandidateSampler):
+            def draw(self, rng, nodes, features):
+                return np.ones((nodes, features), dtype=np.int64)
+
+        class NotAnArray(fl.CandidateSampler):
+            def draw(self, rng, nodes, features):
+                return [[True] * features] * nodes
+
+        class PerTreeRows(fl.CandidateSampler):
+            per_tree = True
+
+            def draw(self, rng, nodes, features):
+                return np.ones((2, features), dtype=bool)
+
+        X, y = problem(3)
+        cases = [
+            (WrongShape, r"WrongShape.draw\(rng, 1, 3\) must return a bool array of shape \(1, 3\); "
+                         r"got bool array of shape \(1, 4\)"),
+            (WrongDtype, r"WrongDtype.draw\(rng, 1, 3\) must return a bool array of shape \(1, 3\); "
+                         r"got int64 array of shape \(1, 3\)"),
+            (NotAnArray, r"NotAnArray.draw\(rng, 1, 3\) must return a bool array .*; got list"),
+            (PerTreeRows, r"PerTreeRows.draw\(rng, 1, 3\) must return a bool array of shape \(1, 3\); "
+                          r"got bool array of shape \(2, 3\)"),
+        ]
+        for cls, match in cases:
+            with pytest.raises(ValueError, match=match):
+                fl.Forest(trees=2, sampler=cls(), rng=0).fit(X, y)
+
+    def test_draw_is_abstract(self):
+        class NoDraw(fl.CandidateSampler):
+            pass
+
+        with pytest.raises(TypeError, match="abstract"):
+            NoDraw()
+
+    def test_user_sampler_offering_one_feature(self, recorded_masks):
+        class OnlyFeature2(fl.CandidateSampler):
+            def draw(self, rng, nodes, features):
+                mask = np.zeros((nodes, features), dtype=bool)
+                mask[:, 2] = True
+                return mask
+
+        X, y = problem(4)
+        forest = fl.Forest(trees=5, sampler=OnlyFeature2(), rng=0).fit(X, y)
+        for b in range(5):
+            assert split_features(forest.tree(b)) == {2}  # x2 is continuous: never constant in a node
+        assert all(m.sum(axis=1).tolist() == [1] * m.shape[0] for m in recorded_masks)
+        assert forest.sampler == OnlyFeature2()
+
+    def test_docstring_sampler_draws_from_the_given_generator(self):
+        class FirstPlusOne(fl.CandidateSampler):
+            def draw(self, rng, nodes, features):
+                mask = np.zeros((nodes, features), dtype=bool)
+                mask[:, 0] = True
+                mask[np.arange(nodes), rng.integers(0, features, size=nodes)] = True
+                return mask
+
+        X, y = problem(6)
+        a = fl.Forest(trees=4, sampler=FirstPlusOne(), rng=3).fit(X, y)
+        b = fl.Forest(trees=4, sampler=FirstPlusOne(), rng=3).fit(X, y)
+        for t in range(4):
+            np.testing.assert_array_equal(a.tree(t).feature, b.tree(t).feature)
+
+    def test_fallback_when_all_candidates_are_constant(self):
+        # x0 is 0/1 and separates the classes only partly; inside each x0-child x0 is constant and x1
+        # decides. A per-node sampler offering only x0 must fall back to x1 there (documented rule); a
+        # per-tree sampler's mask is final, so its tree stops after the x0 split.
+        rng = np.random.default_rng(1)
+        x0 = np.repeat([0.0, 1.0], 50)
+        x1 = rng.normal(size=100)
+        y = np.where(x0 == 0, x1 > 0.3, x1 > -0.3).astype(int)
+        X = np.column_stack([x0, x1])
+
+        class OnlyFirst(fl.CandidateSampler):
+            def draw(self, rng, nodes, features):
+                mask = np.zeros((nodes, features), dtype=bool)
+                mask[:, 0] = True
+                return mask
+
+        class OnlyFirstPerTree(OnlyFirst):
+            per_tree = True
+
+        whole = {"sample_size": 100, "replace": False}
+        node = fl.Forest(trees=1, sampler=OnlyFirst(), rng=0, **whole).fit(X, y).tree(0)
+        assert node.feature[0] == 0
+        assert split_features(node) == {0, 1}
+        assert np.all(node.feature[node.depth >= 1][node.feature[node.depth >= 1] >= 0] == 1)
+        forest = fl.Forest(trees=1, sampler=OnlyFirst(), rng=0, **whole).fit(X, y)
+        np.testing.assert_array_equal(forest.predict(X), y)  # grown to purity through the fallback
+        per_tree = fl.Forest(trees=1, sampler=OnlyFirstPerTree(), rng=0, **whole).fit(X, y).tree(0)
+        assert per_tree.nodes == 3 and per_tree.feature[0] == 0
+
+
+class TestAllFeatures:
+    """Plain bagging (Breiman 1996, "Bagging predictors"): every feature at every node."""
+
+    def test_all_features_iv(self):
+        with pytest.raises(TypeError, match=r"`sampler` must be a sampler instance such as AllFeatures\(\); "
+                                            r"got the class"):
+            fl.Forest(sampler=fl.AllFeatures)
+
+    def test_every_mask_is_full(self, recorded_masks):
+        X, y = problem(5)
+        forest = fl.Forest(trees=3, sampler=fl.AllFeatures(), rng=0).fit(X, y)
+        assert forest.sampler == fl.AllFeatures()
+        assert recorded_masks and all(m.all() for m in recorded_masks)
+
+
+class TestRandomSubset:
+    """A fresh subset of m features at every node (Breiman 2001)."""
+
+    @pytest.mark.parametrize("m, error, match", [
+        ("cube", ValueError, r"`m` must be one of \['log2', 'sqrt'\], an int or a fraction; got 'cube'"),
+        (0, ValueError, r"`m` must be at least 1 when an int; got 0"),
+        (-2, ValueError, r"`m` must be at least 1 when an int; got -2"),
+        (1.5, ValueError, r"`m` must lie in \(0, 1\] when a fraction; got 1.5"),
+        (0.0, ValueError, r"`m` must lie in \(0, 1\] when a fraction; got 0.0"),
+        (True, TypeError, r"`m` must be an int, a float fraction, 'sqrt' or 'log2'; got a bool"),
+        ([3], TypeError, r"`m` must be an int, a float fraction, 'sqrt' or 'log2'; got list"),
+    ])
+    def test_random_subset_iv(self, m, error, match):
+        with pytest.raises(error, match=match):
+            fl.RandomSubset(m)
+        with pytest.raises(error, match=match):
+            fl.TreeSubspace(m)
+
+    @pytest.mark.parametrize("spec, p, task, expected", [
+        (3, 10, "classification", 3),
+        (50, 10, "classification", 10),            # an int is capped at p
+        (0.3, 10, "classification", 3),            # max(1, floor(f p))
+        (0.01, 10, "regression", 1),
+        ("sqrt", 20, "regression", 4),             # floor(sqrt(20))
+        ("log2", 60, "classification", 6),         # int(log2 60 + 1) = int(6.907), Breiman 2001 sec. 5
+        ("log2", 8, "classification", 4),          # int(log2 8 + 1) = 4
+        ("log2", 9, "regression", 4),
+        (None, 20, "classification", 4),           # floor(sqrt p), common practice
+        (None, 20, "regression", 6),               # max(1, floor(p/3)), common practice
+        (None, 2, "regression", 1),
+        (None, 60, "classification", 7),
+    ])
+    def test_resolved_m_and_masks_of_the_fit(self, recorded_masks, spec, p, task, expected):
+        X, y = problem(p, n=60, task=task)
+        forest = fl.Forest(trees=3, sampler=fl.RandomSubset(spec), rng=0).fit(X, y)
+        assert forest.sampler == fl.RandomSubset(expected)
+        assert forest.sampler.m == expected
+        assert recorded_masks
+        for mask in recorded_masks:
+            np.testing.assert_array_equal(mask.sum(axis=1), expected)
+
+    def test_default_sampler_is_common_practice(self):
+        X, y = problem(20, n=60)
+        assert fl.Forest(trees=2, rng=0).fit(X, y).sampler.m == math.isqrt(20)
+        X, y = problem(20, n=60, task="regression")
+        assert fl.Forest(trees=2, rng=0).fit(X, y).sampler.m == 20 // 3
+
+    def test_shorthands_equal_the_instance(self):
+        X, y = problem(9, n=60)
+        for spec in (2, 0.5, "sqrt", "log2"):
+            a = fl.Forest(trees=3, sampler=spec, rng=4).fit(X, y)
+            b = fl.Forest(trees=3, sampler=fl.RandomSubset(spec), rng=4).fit(X, y)
+            assert a.sampler == b.sampler
+            np.testing.assert_array_equal(a.tree(2).feature, b.tree(2).feature)
+
+    def test_draws_are_uniform_over_features(self):
+        # Each feature is offered with probability m/p; binomial tolerance on 20000 rows.
+        rng = np.random.default_rng(11)
+        mask = fl.RandomSubset(3).draw(rng, 20000, 8)
+        np.testing.assert_array_equal(mask.sum(axis=1), 3)
+        share = mask.mean(axis=0)
+        sd = math.sqrt(3 / 8 * 5 / 8 / 20000)
+        assert np.all(np.abs(share - 3 / 8) < 5 * sd)
+
+    def test_nodes_draw_different_subsets(self, recorded_masks):
+        X, y = problem(10, n=200)
+        fl.Forest(trees=1, sampler=fl.RandomSubset(3), rng=0).fit(X, y)
+        rows = np.concatenate(recorded_masks)
+        assert len({r.tobytes() for r in rows}) > rows.shape[0] // 3
+
+
+class TestTreeSubspace:
+    """One subset of m features per tree (Ho 1998)."""
+
+    def test_tree_subspace_iv(self):
+        with pytest.raises(TypeError, match=r"`sampler` must be a sampler instance such as TreeSubspace\(\)"):
+            fl.Forest(sampler=fl.TreeSubspace)
+        with pytest.raises(ValueError, match=r"`m` must be at least 1 when an int"):
+            fl.TreeSubspace(0)
+
+    def test_each_tree_splits_within_its_own_subset(self, recorded_masks):
+        X, y = problem(10, n=150)
+        forest = fl.Forest(trees=20, sampler=fl.TreeSubspace(4), rng=0).fit(X, y)
+        assert forest.sampler == fl.TreeSubspace(4)
+        assert len(recorded_masks) == 20  # one draw per tree, none per node
+        subsets = []
+        for b, mask in enumerate(recorded_masks):
+            assert mask.shape == (1, 10) and mask.sum() == 4
+            allowed = set(np.flatnonzero(mask[0]).tolist())
+            used = split_features(forest.tree(b))
+            assert used <= allowed
+            subsets.append(frozenset(allowed))
+        assert len(set(subsets)) >= 15  # C(10, 4) = 210 subsets: trees differ
+
+    def test_default_is_half_the_features(self):
+        X, y = problem(10, n=60)
+        assert fl.Forest(trees=2, sampler=fl.TreeSubspace(), rng=0).fit(X, y).sampler.m == 5
+        assert fl.Forest(trees=2, sampler=fl.TreeSubspace("sqrt"), rng=0).fit(X, y).sampler.m == 3
