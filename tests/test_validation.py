@@ -112,9 +112,8 @@ class TestFit:
     """``fit`` validates X and y and encodes labels; a single class is legal with a warning."""
 
     @pytest.mark.parametrize("make, error, match", [
-        (lambda X, y: (np.where(X > 1.5, np.nan, X), y), ValueError,
-         r"`X` holds \d+ NaN or infinite value\(s\), first at row \d+, column \d+"),
-        (lambda X, y: (np.where(X > 1.5, -np.inf, X), y), ValueError, r"`X` holds \d+ NaN or infinite"),
+        (lambda X, y: (np.where(X > 1.5, -np.inf, X), y), ValueError,
+         r"`X` holds \d+ infinite value\(s\), first at row \d+, column \d+; predictors must be finite"),
         (lambda X, y: (X, np.where(X[:, 0] > 1.5, np.nan, X[:, 0])), ValueError,
          r"`y` holds \d+ NaN or infinite value\(s\), first at row \d+"),
         (lambda X, y: (X, np.where(X[:, 0] > 1.5, np.inf, X[:, 0])), ValueError, r"`y` holds \d+ NaN or infinite"),
@@ -213,8 +212,8 @@ class TestPredict:
             fitted.predict(X[:, :2])
         with pytest.raises(ValueError, match=r"`X` must be 2-D"):
             fitted.predict(X[0])
-        with pytest.raises(ValueError, match=r"`X` holds 1 NaN or infinite value\(s\), first at row 2, column 1"):
-            fitted.predict(np.where(np.arange(120).reshape(40, 3) == 7, np.nan, X))
+        with pytest.raises(ValueError, match=r"`X` holds 1 infinite value\(s\), first at row 2, column 1"):
+            fitted.predict(np.where(np.arange(120).reshape(40, 3) == 7, np.inf, X))
         with pytest.raises(TypeError, match=r"`X` must hold real numbers"):
             fitted.predict(X.astype(str))
 
