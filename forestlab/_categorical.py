@@ -30,7 +30,10 @@ def words_for(categories: int) -> int:
 
 
 def encode_columns(X: NDArray[np.float64], columns: list[int]) -> tuple[NDArray[np.float64], dict[int, NDArray]]:
-    """Replace each categorical column by codes ``0..k-1`` (NaN stays NaN); returns the copy and the levels."""
+    """Replace each categorical column by codes ``0..k-1`` (NaN stays NaN); returns the levels and ``X`` (a copy
+    only when there are categorical columns)."""
+    if not columns:
+        return X, {}
     X = X.copy()
     levels: dict[int, NDArray] = {}
     for j in columns:

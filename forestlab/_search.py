@@ -75,7 +75,7 @@ class _Segments:
     cand_of: NDArray[np.int64]     # (L,) candidate of each element
     x: NDArray[np.float64]         # (L,) feature value (category position for categorical), NaN last
     wi: NDArray[np.int64]          # (L,) index of each element's (tree, row) in the weighted statistics
-    row: NDArray[np.int64]         # (L,) training row of each element
+    row: NDArray[np.int32]         # (L,) training row of each element (may be the same array as wi)
 
 
 def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, stats, lightest: float,
@@ -95,16 +95,21 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
     missing = _missing_totals(seg, elem) if data.missing else None
     cs, totals = _running_sums(elem, seg)
     cut = _distinct_cuts(seg)
+    if cut.size == 0:
+        return out
     left = np.take(cs, cut, axis=1)
     right = np.take(totals, seg.cand_of[cut], axis=1) - left
     node = seg.cand_node[seg.cand_of[cut]]
-    score, to_left = _scores(splitter, min_leaf, lightest, left, right, parent[node],
-                             None if missing is None else np.take(missing, seg.cand_of[cut], axis=1))
-    ok = np.flatnonzero(score > -np.inf)
-    if ok.size == 0:
-        return out
-    nodes, pick = _argmax_per_node(node[ok], score[ok], parent)
-    pick = ok[pick]
+    score, missing_side = _scores(splitter, min_leaf, lightest, left, right, parent[node],
+                                  None if missing is None else np.take(missing, seg.cand_of[cut], axis=1))
+    if min_leaf > lightest:
+        ok = np.flatnonzero(score > -np.inf)
+        if ok.size == 0:
+            return out
+        nodes, pick = _argmax_per_node(node[ok], score[ok], parent)
+        pick = ok[pick]
+    else:
+        nodes, pick = _argmax_per_node(node, score, parent)
     e = cut[pick]
     lo, hi = seg.x[e], seg.x[e + 1]
     threshold = 0.5 * lo + 0.5 * hi
@@ -112,7 +117,11 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
     out.feature[nodes] = seg.cand_feat[seg.cand_of[e]]
     out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
     out.decrease[nodes] = score[pick]
-    out.missing_left[nodes] = to_left[pick]
+    # a split that saw no missing case sends them to the heavier child (left on ties)
+    out.missing_left[nodes] = left[0, pick] >= right[0, pick]
+    if missing_side is not None:
+        seen, to_left = missing_side
+        out.missing_left[nodes] = np.where(seen[pick], to_left[pick], out.missing_left[nodes])
     if order is not None:
         _record_category_sets(out, order, nodes, seg.cand_of[e], lo, data.category_words)
     return out
@@ -152,6 +161,8 @@ def _order_categories(data: TrainingData, seg: _Segments, weights) -> _CategoryO
     position = np.full(el.size, float(k))
     position[seen] = pos.ravel()[slot]
     perm = np.argsort(lc * (k + 1) + position.astype(np.int64), kind="stable")
+    if seg.wi is seg.row:
+        seg.wi = seg.row.copy()
     position[~seen] = np.nan
     seg.x[el] = position[perm]
     seg.wi[el] = seg.wi[el][perm]
@@ -184,8 +195,8 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand) ->
     cand_of = np.repeat(np.arange(cand.size), size)
     flat = key + np.repeat((cand_feat - np.arange(cand.size)) * n, size)
     cand_tree = node_tree[cand_node]
-    row = data.order.ravel()[flat].astype(np.int64)
-    wi = row + np.repeat(cand_tree * n, size) if cand_tree[-1] > 0 else row.copy()
+    row = data.order.ravel()[flat]
+    wi = row + np.repeat(cand_tree * n, size) if cand_tree[-1] > 0 else row
     return _Segments(cand_node, cand_feat, cand_tree, np.cumsum(size) - size, cand_of,
                      data.sorted_x.ravel()[flat], wi, row)
 
@@ -246,18 +257,17 @@ def _distinct_cuts(seg: _Segments) -> NDArray[np.intp]:
 
 
 def _scores(splitter, min_leaf, lightest, left, right, parent, missing):
-    """Impurity decrease of every cut (-inf where no option is allowed) and whether missing go left.
+    """Impurity decrease of every cut (-inf where no option is allowed), and the missing-value side.
 
     Option A sends the segment's missing cases right (they sort last, so ``right`` already holds them);
-    option B sends them left. B is taken only where it beats A by more than the tie tolerance. A split
-    that saw no missing case sends them to the heavier child (left on ties).
+    option B sends them left. B is taken only where it beats A by more than the tie tolerance. Returns None
+    for the side when no segment has missing cases, else (cuts whose segment saw missing, B taken).
     """
     score = _decrease(splitter, left, right, parent)
     if min_leaf > lightest:
         score[(left[0] < min_leaf) | (right[0] < min_leaf)] = -np.inf
-    larger_left = left[0] >= right[0]
     if missing is None:
-        return score, larger_left
+        return score, None
     has = np.flatnonzero(missing[0] > 0)
     left_b = left[:, has] + missing[:, has]
     right_b = right[:, has] - missing[:, has]
@@ -266,10 +276,11 @@ def _scores(splitter, min_leaf, lightest, left, right, parent, missing):
         score_b[(left_b[0] < min_leaf) | (right_b[0] < min_leaf)] = -np.inf
     better = score_b > score[has] + TIE_TOLERANCE * np.abs(parent[has])
     score[has[better]] = score_b[better]
-    # where the segment saw missing cases they go right unless B won; elsewhere to the heavier child
-    to_left = larger_left
-    to_left[has] = better
-    return score, to_left
+    seen = np.zeros(score.size, dtype=bool)
+    seen[has] = True
+    to_left = np.zeros(score.size, dtype=bool)
+    to_left[has[better]] = True
+    return score, (seen, to_left)
 
 
 def _decrease(splitter, left, right, parent):

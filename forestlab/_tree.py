@@ -96,11 +96,13 @@ TreeArrays = Tree
 
 
 def goes_right(X: NDArray[np.float64], row, node, feature, threshold, missing_left, category_left,
-               categories) -> NDArray[np.bool_]:
+               categories, missing: bool = True) -> NDArray[np.bool_]:
     """Whether each (row, node) pair goes to the node's right child: value above the threshold, the missing
-    side for NaN, the left-category set for a categorical split."""
+    side for NaN, the left-category set for a categorical split. ``missing=False`` promises X has no NaN."""
     value = X.ravel()[row * X.shape[1] + feature[node]]
     right = value > threshold[node]
+    if categories is None and not missing:
+        return right
     gap = np.isnan(value)
     if categories is not None:
         coded = np.flatnonzero((categories[feature[node]] > 0) & ~gap)
@@ -116,6 +118,7 @@ def leaf_index(tree: Tree, X: NDArray[np.float64], categories: NDArray[np.int64]
     """Leaf reached by every row of ``X``, pushing all rows down the tree one level at a time."""
     node = np.zeros(X.shape[0], dtype=np.int64)
     active = np.arange(X.shape[0])
+    missing = bool(np.isnan(X).any())
     while active.size:
         here = node[active]
         inner = np.flatnonzero(tree.feature[here] >= 0)
@@ -123,5 +126,5 @@ def leaf_index(tree: Tree, X: NDArray[np.float64], categories: NDArray[np.int64]
             break
         active, here = active[inner], here[inner]
         node[active] = tree.left[here] + goes_right(X, active, here, tree.feature, tree.threshold,
-                                                    tree.missing_left, tree.category_left, categories)
+                                                    tree.missing_left, tree.category_left, categories, missing)
     return node
