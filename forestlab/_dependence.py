@@ -109,7 +109,13 @@ def _check_grid(grid: Any, X: NDArray, features: tuple[int, ...], points: int) -
 
 
 def _default_grid(x: NDArray, points: int) -> NDArray[np.float64]:
-    """The distinct values when there are at most ``points``; else ``points`` evenly spaced quantiles."""
+    """The distinct values when there are at most ``points``; else ``points`` evenly spaced quantiles.
+
+    Missing values (NaN) are left out.
+    """
+    x = x[~np.isnan(x)]
+    if x.size == 0:
+        raise ValueError("the feature is missing (NaN) in every case; pass `grid` explicitly")
     distinct = np.unique(x)
     if distinct.size <= points:
         return distinct

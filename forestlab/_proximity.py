@@ -21,7 +21,7 @@ import scipy.sparse
 import scipy.sparse.linalg
 from numpy.typing import NDArray
 
-from ._cases import ROW_BUDGET, analysis_X, analysis_y, leaves
+from ._cases import ROW_BUDGET, analysis_X, analysis_y, leaves, row_blocks
 from ._warnings import OverlapWarning
 
 __all__ = ["ProximityMap", "classical_scaling", "outlyingness", "proximity", "proximity_blocks",
@@ -175,8 +175,10 @@ def proximity_map(forest: Any, dims: int = 2, *, oob: bool = True, X: Any = None
     oob = _check_bool(oob, "oob")
     data, _ = analysis_X(forest, X)
     _check_dims(dims, data.shape[0])
-    P = proximity(forest, oob, X=X)
-    return classical_scaling(1.0 - np.nan_to_num(P, nan=0.0), dims)
+    D = proximity(forest, oob, X=X)
+    np.nan_to_num(D, copy=False, nan=0.0)
+    np.subtract(1.0, D, out=D)  # dissimilarity 1 - proximity, in place
+    return classical_scaling(D, dims)
 
 
 def _check_dims(dims: Any, n: int) -> int:
@@ -208,13 +210,16 @@ def classical_scaling(distances: Any, dims: int = 2) -> ProximityMap:
     D = np.asarray(distances, dtype=np.float64)
     if D.ndim != 2 or D.shape[0] != D.shape[1] or D.shape[0] < 2:
         raise ValueError(f"`distances` must be a square matrix of at least 2 x 2; got shape {D.shape}")
-    if not np.all(np.isfinite(D)) or not np.allclose(D, D.T, atol=1e-12) or D.min() < 0:
+    if not _symmetric_distances(D):
         raise ValueError("`distances` must be finite, non-negative and symmetric")
     n = D.shape[0]
     dims = _check_dims(dims, n)
-    D2 = D * D
-    row = D2.mean(axis=1)
-    B = -0.5 * (D2 - row[:, None] - row[None, :] + row.mean())
+    B = D * D  # becomes -1/2 J D^2 J in place: the (n, n) work arrays stay at one
+    row = B.mean(axis=1)
+    B -= row[:, None]
+    B -= row[None, :]
+    B += row.mean()
+    B *= -0.5
     values, vectors = _leading_eigen(B, dims)
     coords = vectors * np.sqrt(np.maximum(values, 0.0))
     flip = np.sign(coords[np.argmax(np.abs(coords), axis=0), np.arange(dims)])
@@ -222,6 +227,15 @@ def classical_scaling(distances: Any, dims: int = 2) -> ProximityMap:
     trace = float(np.trace(B))
     explained = values / trace if trace > 0 else np.full(dims, np.nan)
     return ProximityMap(coordinates=coords, eigenvalues=values, explained=explained)
+
+
+def _symmetric_distances(D: NDArray) -> bool:
+    """Finite, non-negative and symmetric, checked a block of rows at a time (no (n, n) temporaries)."""
+    for rows in row_blocks(D.shape[0], D.shape[0]):
+        part = D[rows]
+        if not (np.all(np.isfinite(part)) and part.min() >= 0 and np.allclose(part, D[:, rows].T, atol=1e-12)):
+            return False
+    return True
 
 
 def _leading_eigen(B: NDArray, dims: int) -> tuple[NDArray, NDArray]:

@@ -83,6 +83,17 @@ class TestPartialDependence:
         binary = np.column_stack([X[:, :9], (X[:, 9] > 0.5).astype(float)])
         assert forest.partial_dependence(9, X=binary).grid[0].tolist() == [0.0, 1.0]
 
+    def test_missing_values_stay_out_of_the_grid(self, regression):
+        forest, X = regression
+        gappy = X.copy()
+        gappy[::3, 1] = np.nan
+        result = forest.partial_dependence(1, X=gappy, points=4)
+        present = np.delete(X[:, 1], np.arange(0, X.shape[0], 3))
+        assert np.allclose(result.grid[0], np.quantile(present, [0, 1 / 3, 2 / 3, 1]))
+        gappy[:, 1] = np.nan
+        with pytest.raises(ValueError, match="missing \\(NaN\\) in every case; pass `grid`"):
+            forest.partial_dependence(1, X=gappy)
+
     def test_two_class_default_label(self):
         rng = np.random.default_rng(1)
         X = rng.normal(size=(100, 2))
