@@ -9,7 +9,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ._tree import leaf_index
-from ._validation import check_X, check_y
+from ._validation import check_y
 
 __all__ = ["ROW_BUDGET", "analysis_X", "analysis_y", "leaves", "mean_prediction", "row_blocks"]
 
@@ -18,11 +18,12 @@ ROW_BUDGET = 4_000_000
 
 
 def analysis_X(forest: Any, X: Any) -> tuple[NDArray[np.float64], bool]:
-    """``X`` validated against the forest, or the training predictors; the flag says whether they are these."""
+    """``X`` validated and coded like the training predictors (categories as codes), or the training predictors
+    themselves; the flag says which."""
     forest._check_fitted()
     if X is None:
         return forest._data.X, True
-    return check_X(X, features=forest.features), False
+    return forest._check_predict_X(X), False
 
 
 def analysis_y(forest: Any, y: Any, rows: int) -> NDArray:
@@ -40,7 +41,7 @@ def leaves(forest: Any, X: NDArray[np.float64]) -> NDArray[np.int64]:
     """Leaf reached by every case in every tree: shape (trees, n)."""
     out = np.empty((len(forest._trees), X.shape[0]), dtype=np.int64)
     for b, tree in enumerate(forest._trees):
-        out[b] = leaf_index(tree, X)
+        out[b] = leaf_index(tree, X, forest._data.categories)
     return out
 
 
@@ -60,6 +61,6 @@ def mean_prediction(forest: Any, X: NDArray[np.float64], label: int | None) -> N
     for rows in row_blocks(X.shape[0], X.shape[1]):
         block = X[rows]
         for tree in forest._trees:
-            value = tree.value[leaf_index(tree, block)]
+            value = tree.value[leaf_index(tree, block, forest._data.categories)]
             out[rows] += value if label is None else (value == label)
     return out / len(forest._trees)

@@ -29,7 +29,8 @@ class Dependence:
     features : tuple of int
         The feature column(s), one or two.
     grid : tuple of ndarray
-        The grid values of every feature, increasing; shapes (G1,) or (G1,), (G2,).
+        The grid values of every feature, increasing; shapes (G1,) or (G1,), (G2,). For a categorical
+        feature, its category labels (by default all categories seen in training).
     average : ndarray of float64, shape (G1,) or (G1, G2)
         Mean over the cases of the prediction (regression) or of the share of trees voting ``label``
         (classification) with the feature(s) set to the grid values.
@@ -64,9 +65,11 @@ def partial_dependence(forest: Any, feature: Any, grid: Any = None, *, X: Any = 
         raise ValueError("`ice` curves are drawn for one feature; pass a single `feature`")
     if isinstance(points, (bool, np.bool_)) or not isinstance(points, numbers.Integral) or points < 2:
         raise ValueError(f"`points` must be an int of at least 2; got {points!r}")
-    grids = _check_grid(grid, data, features, int(points))
+    levels = getattr(forest, "_levels", {})
+    grids = _check_grid(grid, data, features, int(points), levels)
+    coded = tuple(_category_codes(g, levels[f], f) if f in levels else g for f, g in zip(features, grids))
     code = _check_label(forest, label)
-    settings = np.stack([g.ravel() for g in np.meshgrid(*grids, indexing="ij")], axis=1)
+    settings = np.stack([g.ravel() for g in np.meshgrid(*coded, indexing="ij")], axis=1)
     per_case = _per_case(forest, data, features, settings, code)
     average = per_case.mean(axis=1).reshape(tuple(g.size for g in grids))
     return Dependence(features=features, grid=grids, average=average, ice=per_case.T.copy() if ice else None,
@@ -87,16 +90,16 @@ def _check_features(feature: Any, p: int) -> tuple[int, ...]:
     return tuple(int(f) for f in items)
 
 
-def _check_grid(grid: Any, X: NDArray, features: tuple[int, ...], points: int) -> tuple[NDArray, ...]:
-    if grid is None:
-        return tuple(_default_grid(X[:, f], points) for f in features)
-    parts = [grid] if len(features) == 1 else list(grid)
+def _check_grid(grid: Any, X: NDArray, features: tuple[int, ...], points: int,
+                levels: dict[int, NDArray]) -> tuple[NDArray, ...]:
+    """Grid values per feature, increasing; a categorical feature's default grid is all its categories."""
+    parts = [None] * len(features) if grid is None else [grid] if len(features) == 1 else list(grid)
     if len(parts) != len(features):
         raise ValueError(f"`grid` must hold one array per feature ({len(features)}); got {len(parts)}")
     out = []
     for f, part in zip(features, parts):
         if part is None:
-            out.append(_default_grid(X[:, f], points))
+            out.append(levels[f].astype(np.float64) if f in levels else _default_grid(X[:, f], points))
             continue
         try:
             g = np.atleast_1d(np.asarray(part, dtype=np.float64))
@@ -106,6 +109,16 @@ def _check_grid(grid: Any, X: NDArray, features: tuple[int, ...], points: int) -
             raise ValueError("`grid` values must be a non-empty 1-D array of finite numbers per feature")
         out.append(np.unique(g))
     return tuple(out)
+
+
+def _category_codes(values: NDArray, categories: NDArray, feature: int) -> NDArray[np.float64]:
+    """Training codes of categorical grid values; every value must be a category seen in training."""
+    pos = np.minimum(np.searchsorted(categories, values), categories.size - 1)
+    unseen = categories[pos] != values
+    if unseen.any():
+        raise ValueError(f"`grid` value(s) {values[unseen].tolist()[:5]} are not categories of feature {feature} "
+                         f"seen in training; known: {categories.tolist()[:10]}")
+    return pos.astype(np.float64)
 
 
 def _default_grid(x: NDArray, points: int) -> NDArray[np.float64]:

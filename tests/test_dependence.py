@@ -94,6 +94,24 @@ class TestPartialDependence:
         with pytest.raises(ValueError, match="missing \\(NaN\\) in every case; pass `grid`"):
             forest.partial_dependence(1, X=gappy)
 
+    def test_categorical_feature_uses_its_categories(self):
+        # The grid of a categorical feature is its category labels; holding the feature at a label means the
+        # same as predicting on data with that label (brute force through Forest.predict).
+        rng = np.random.default_rng(3)
+        X = np.column_stack([rng.choice([10.0, 20.0, 30.0, 40.0], 200), rng.normal(size=200)])
+        y = np.where(np.isin(X[:, 0], [20.0, 40.0]), 3.0, 0.0) + X[:, 1]
+        forest = fl.Forest(trees=20, categorical=[0], rng=4).fit(X, y)
+        result = forest.partial_dependence(0)
+        assert result.grid[0].tolist() == [10.0, 20.0, 30.0, 40.0]
+        for g, value in enumerate(result.grid[0]):
+            held = X.copy()
+            held[:, 0] = value
+            assert result.average[g] == pytest.approx(forest.predict(held).mean(), rel=1e-12)
+        assert result.average[1] - result.average[0] > 2.0
+        with pytest.raises(ValueError, match=r"`grid` value\(s\) \[25.0\] are not categories of feature 0"):
+            forest.partial_dependence(0, grid=[10.0, 25.0])
+        assert forest.importance(rng=1).ranking[0] == 0
+
     def test_two_class_default_label(self):
         rng = np.random.default_rng(1)
         X = rng.normal(size=(100, 2))
