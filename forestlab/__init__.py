@@ -1,6 +1,10 @@
 """forestlab: bagged decision trees and random forests in pure NumPy, with out-of-bag analytics."""
 
+from ._dependence import Dependence as Dependence
 from ._forest import Forest as Forest
+from ._importance import Importance as Importance
+from ._proximity import ProximityMap as ProximityMap
+from ._proximity import classical_scaling as classical_scaling
 from ._sampler import AllFeatures as AllFeatures
 from ._sampler import CandidateSampler as CandidateSampler
 from ._sampler import RandomSubset as RandomSubset
@@ -11,6 +15,7 @@ from ._splitter import GiniSplitter as GiniSplitter
 from ._splitter import SquaredErrorSplitter as SquaredErrorSplitter
 from ._tree import Tree as Tree
 from ._warnings import ForestlabWarning as ForestlabWarning
+from ._warnings import OverlapWarning as OverlapWarning
 from ._warnings import SingleClassWarning as SingleClassWarning
 
 __version__ = "0.1.0"
@@ -19,13 +24,18 @@ __all__ = [
     "AllFeatures",
     "CandidateSampler",
     "CartSplitter",
+    "Dependence",
     "EntropySplitter",
     "Forest",
     "ForestlabWarning",
     "GiniSplitter",
+    "Importance",
+    "OverlapWarning",
+    "ProximityMap",
     "RandomSubset",
     "SingleClassWarning",
     "SquaredErrorSplitter",
     "Tree",
     "TreeSubspace",
+    "classical_scaling",
 ]

@@ -9,9 +9,13 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from . import _dependence, _importance, _proximity
 from ._categorical import apply_levels, encode_columns
+from ._dependence import Dependence
 from ._grow import GrowthRules, grow_batch
+from ._importance import Importance
 from ._presort import TrainingData, presort
+from ._proximity import ProximityMap
 from ._sampler import CandidateSampler
 from ._seeding import check_rng, root_seed, tree_seed
 from ._splitter import CartSplitter, GiniSplitter, SquaredErrorSplitter
@@ -277,6 +281,69 @@ class Forest:
         if self.task == "classification":
             return self.classes[np.argmax(self.votes(X), axis=1)]
         return self.per_tree(X).mean(axis=0)
+
+    # ----------------------------------------------------------------------------------------- analyses
+    def importance(self, kind: str = "permutation", *, X: ArrayLike | None = None, y: ArrayLike | None = None,
+                   groups: Any = None, names: Sequence[str] | None = None, rng: Any = None) -> Importance:
+        """Importance of every feature, or of groups of features, as a sorted-printing :class:`Importance`.
+
+        ``kind="permutation"`` (Breiman 2001, "Random forests", section 10): for every tree and feature, the
+        rise in the tree's error (misclassification rate or mean squared error) on its out-of-bag cases when
+        the feature's values are shuffled among those cases; ``scores`` is the mean over trees, ``spread`` the
+        standard deviation, ``z = scores / (spread / sqrt(trees))``. With ``X`` and ``y`` (held-out cases),
+        every tree is scored on all of them instead. ``groups`` (a mapping of name to columns, or a list of
+        column lists) shuffles a set of correlated columns together, rows kept aligned, and scores the set.
+
+        ``kind="impurity"``: every tree's weighted impurity decrease per feature as a share of the tree's
+        total, averaged over trees (the scores sum to 1). Cheap, but biased: it favours features with many
+        distinct values (many candidate thresholds) even when they are pure noise (Strobl, Boulesteix,
+        Zeileis & Hothorn 2007, "Bias in random forest variable importance measures: illustrations, sources
+        and a solution", BMC Bioinformatics 8:25). Prefer the permutation kind to compare features of
+        different types.
+
+        ``names`` label the features (default ``"x0"``, ``"x1"``, ...); ``rng`` seeds the shuffles (tree ``b``
+        draws from its own child of the seed, so results do not depend on the order of work).
+        """
+        return _importance.importance(self, kind, X=X, y=y, groups=groups, names=names, rng=rng)
+
+    def partial_dependence(self, feature: int | tuple[int, int], grid: ArrayLike | None = None, *,
+                           X: ArrayLike | None = None, label: Any = None, ice: bool = False,
+                           points: int = 25) -> Dependence:
+        """Partial dependence on one feature, or on a pair (an interaction surface), as :class:`Dependence`.
+
+        Friedman (2001), "Greedy function approximation", section 8.2: the forest's prediction averaged over
+        the cases (the training cases, or ``X``) with ``feature`` set to each ``grid`` value. For
+        classification, the share of trees voting ``label`` (default: the second class of a two-class
+        forest). ``grid`` defaults to the distinct values, or ``points`` evenly spaced quantiles, of the
+        feature; for a pair, pass one array (or None) per feature. ``ice=True`` keeps every case's curve
+        (Goldstein, Kapelner, Bleich & Pitkin 2015, "Peeking inside the black box").
+        """
+        return _dependence.partial_dependence(self, feature, grid, X=X, label=label, ice=ice, points=points)
+
+    def proximity(self, oob: bool = True, *, X: ArrayLike | None = None, block: int | None = None) -> NDArray:
+        """Share of trees in which two cases land in the same leaf: an (n, n) float64 array.
+
+        With ``oob=True`` (training cases only) a tree counts for a pair only when both cases are out-of-bag
+        for it; pairs never out-of-bag together are NaN (with an :class:`OverlapWarning`). The diagonal is 1.
+        Rows are computed ``block`` at a time from a sparse leaf-membership matrix, so the working memory
+        beyond the (n, n) result stays near ``trees x n``; n = 10 000 needs the 800 MB result and little more.
+        """
+        return _proximity.proximity(self, oob, X=X, block=block)
+
+    def outlyingness(self, oob: bool = True, *, X: ArrayLike | None = None, y: ArrayLike | None = None,
+                     block: int | None = None) -> NDArray[np.float64]:
+        """Outlier score of every case within its class (Breiman & Cutler's measure), shape (n,).
+
+        Raw score ``n / sum_k prox(i, k)^2`` over the other cases ``k`` of case ``i``'s class (all cases for
+        regression), then standardised within each class: minus the class median, divided by the class
+        median absolute deviation. Large values (common practice: above about 10) mark cases unlike the rest
+        of their class. Streams proximity blocks; the (n, n) matrix is never stored.
+        """
+        return _proximity.outlyingness(self, oob, X=X, y=y, block=block)
+
+    def proximity_map(self, dims: int = 2, *, oob: bool = True, X: ArrayLike | None = None) -> ProximityMap:
+        """Map of the cases: classical multidimensional scaling of ``1 - proximity`` (:class:`ProximityMap`)."""
+        return _proximity.proximity_map(self, dims, oob=oob, X=X)
 
     def _check_fitted(self) -> None:
         if not self._trees:

@@ -6,7 +6,7 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 
 from __future__ import annotations
 
-__all__ = ["ForestlabWarning", "SingleClassWarning"]
+__all__ = ["ForestlabWarning", "OverlapWarning", "SingleClassWarning"]
 
 
 class ForestlabWarning(UserWarning):
@@ -15,3 +15,7 @@ class ForestlabWarning(UserWarning):
 
 class SingleClassWarning(ForestlabWarning):
     """The training labels contain a single class: every tree is one leaf that predicts it."""
+
+
+class OverlapWarning(ForestlabWarning):
+    """Some pairs of cases are never out-of-bag in the same tree, so their OOB proximity is undefined (NaN)."""

@@ -1,0 +1,66 @@
+"""The cases an analysis reads: the training data kept by the fitted forest, or data passed explicitly."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ._tree import leaf_index
+from ._validation import check_y
+
+__all__ = ["ROW_BUDGET", "analysis_X", "analysis_y", "leaves", "mean_prediction", "row_blocks"]
+
+# Largest number of float64 elements a stacked block of predictor copies may hold (about 32 MB).
+ROW_BUDGET = 4_000_000
+
+
+def analysis_X(forest: Any, X: Any) -> tuple[NDArray[np.float64], bool]:
+    """``X`` validated and coded like the training predictors (categories as codes), or the training predictors
+    themselves; the flag says which."""
+    forest._check_fitted()
+    if X is None:
+        return forest._data.X, True
+    return forest._check_predict_X(X), False
+
+
+def analysis_y(forest: Any, y: Any, rows: int) -> NDArray:
+    """Targets encoded like the training targets (class indices or floats) for ``rows`` cases."""
+    target = check_y(y, rows, forest.task)
+    if forest.task == "classification":
+        known = np.isin(target.classes, forest.classes)
+        if not known.all():
+            raise ValueError(f"`y` holds label(s) the forest never saw: {target.classes[~known].tolist()[:5]}")
+        return np.searchsorted(forest.classes, target.classes)[target.values]
+    return target.values
+
+
+def leaves(forest: Any, X: NDArray[np.float64]) -> NDArray[np.int64]:
+    """Leaf reached by every case in every tree: shape (trees, n)."""
+    out = np.empty((len(forest._trees), X.shape[0]), dtype=np.int64)
+    for b, tree in enumerate(forest._trees):
+        out[b] = leaf_index(tree, X, forest._data.categories)
+    return out
+
+
+def row_blocks(rows: int, width: int, budget: int = ROW_BUDGET) -> Iterator[slice]:
+    """Consecutive slices of ``range(rows)`` with at most ``budget // width`` rows each (at least one)."""
+    step = max(1, budget // max(1, width))
+    for start in range(0, rows, step):
+        yield slice(start, min(rows, start + step))
+
+
+def mean_prediction(forest: Any, X: NDArray[np.float64], label: int | None) -> NDArray[np.float64]:
+    """Mean over trees of each tree's value (regression) or share of trees voting ``label``, for every row.
+
+    Works through ``X`` in row blocks, so a large stacked design never meets all trees at once.
+    """
+    out = np.zeros(X.shape[0])
+    for rows in row_blocks(X.shape[0], X.shape[1]):
+        block = X[rows]
+        for tree in forest._trees:
+            value = tree.value[leaf_index(tree, block, forest._data.categories)]
+            out[rows] += value if label is None else (value == label)
+    return out / len(forest._trees)
