@@ -6,7 +6,7 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 
 from __future__ import annotations
 
-__all__ = ["ForestlabWarning", "SingleClassWarning"]
+__all__ = ["ForestlabWarning", "NeverOutOfBagWarning", "SingleClassWarning"]
 
 
 class ForestlabWarning(UserWarning):
@@ -15,3 +15,10 @@ class ForestlabWarning(UserWarning):
 
 class SingleClassWarning(ForestlabWarning):
     """The training labels contain a single class: every tree is one leaf that predicts it."""
+
+
+class NeverOutOfBagWarning(ForestlabWarning):
+    """Some training case was in every tree's bootstrap sample, so no out-of-bag result exists for it.
+
+    The case gets NaN (or no label) and is left out of the out-of-bag error; more trees usually cover it.
+    """
