@@ -88,6 +88,9 @@ class Forest:
         Number of features seen in fit.
     seed : numpy.random.SeedSequence
         Root seed; tree ``b`` is grown from ``SeedSequence(seed.entropy, spawn_key=seed.spawn_key + (b,))``.
+    oob : OutOfBag
+        Out-of-bag error, error curve, votes, margins, doubtful cases, strength and correlation, computed
+        on first access from the trees and :attr:`inbag`; :meth:`add_trees` grows more trees on the same data.
 
     Examples
     --------

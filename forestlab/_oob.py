@@ -63,7 +63,23 @@ def out_of_bag(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float6
                stacklevel: int = 1) -> OutOfBag:
     """Compute every OOB result of a fitted forest (see :class:`OutOfBag`).
 
-    Warns with :class:`NeverOutOfBagWarning` when some case was in every bootstrap sample.
+    Parameters
+    ----------
+    trees : list of Tree
+        The forest's trees, in seed order.
+    inbag : ndarray of uint8, shape (trees, n)
+        Their bootstrap counts; case ``i`` is OOB for tree ``b`` when ``inbag[b, i] == 0``.
+    X : ndarray of float64, shape (n, p)
+        The training predictors.
+    target : Target
+        The validated training targets.
+    stacklevel : int, default 1
+        Frame the warning points at, counted from the caller of this function.
+
+    Warns
+    -----
+    NeverOutOfBagWarning
+        When some case was in every bootstrap sample.
     """
     entries = oob_entries(trees, inbag, X)
     n = X.shape[0]
