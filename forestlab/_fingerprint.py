@@ -13,10 +13,12 @@ __all__ = ["data_fingerprint", "check_same_data"]
 
 
 def data_fingerprint(X: NDArray[np.float64], target: Target) -> str:
-    """sha256 of the shape, the bytes of the validated ``X``, the task, the target codes or values and labels."""
+    """sha256 of the shape, the validated ``X`` (NaN and -0.0 made canonical), the task, target codes and labels."""
     h = hashlib.sha256()
     h.update(repr((X.shape, target.task)).encode())
-    h.update(np.ascontiguousarray(X, dtype=np.float64).tobytes())
+    canonical = np.ascontiguousarray(X, dtype=np.float64) + 0.0   # -0.0 and 0.0 split alike
+    canonical[np.isnan(canonical)] = np.nan                        # one bit pattern for a missing value
+    h.update(canonical.tobytes())
     h.update(np.ascontiguousarray(target.values).tobytes())
     if target.classes is not None:
         h.update(repr(target.classes.tolist()).encode())

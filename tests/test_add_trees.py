@@ -93,3 +93,13 @@ class TestAddTrees:
         forest.fit(X[:40], labels[:40])              # a refit keeps the fingerprint of the new data
         forest.add_trees(X[:40], labels[:40], trees=1)
         assert forest.inbag.shape == (8, 40)
+
+    def test_missing_values_keep_the_fingerprint(self):
+        X, y = twonorm(90, dims=3, rng=7)
+        X[::7, 1] = np.nan
+        forest = fl.Forest(trees=5, rng=8).fit(X, y)
+        forest.add_trees(X.copy(), y, trees=3)       # NaN compares unequal, but the fingerprint matches
+        assert_same_forest(forest, fl.Forest(trees=8, rng=8).fit(X, y))
+        filled = np.nan_to_num(X)
+        with pytest.raises(ValueError, match="differ from the fit data"):
+            forest.add_trees(filled, y, trees=1)
