@@ -50,7 +50,8 @@ def main() -> None:
     print(f"classes (vote columns): {forest.classes.tolist()}")
     oob = forest.oob
     error = np.mean(forest.predict(new_X) != new_grade)
-    print(f"out-of-bag error (no test set needed): {oob.error:.3f}; error on 500 new batches: {error:.3f}")
+    print(f"out-of-bag error (no test set needed): {oob.error:.3f}")
+    print(f"error on 500 new batches: {error:.3f}")
     settled = oob.settles_at(LEVEL_BAND)
     print(f"the OOB error curve stays within {LEVEL_BAND:.0%} of its final value from {settled} trees on "
           f"(curve at 10, 50, 100 trees: {oob.error_curve[9]:.3f}, {oob.error_curve[49]:.3f}, "

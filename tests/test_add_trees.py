@@ -103,3 +103,10 @@ class TestAddTrees:
         filled = np.nan_to_num(X)
         with pytest.raises(ValueError, match="differ from the fit data"):
             forest.add_trees(filled, y, trees=1)
+
+    def test_categorical_predictors(self):
+        X, y = twonorm(90, dims=3, rng=9)
+        X[:, 0] = np.floor(np.abs(X[:, 0]) * 2)         # a coded category
+        forest = fl.Forest(trees=6, categorical=[0], rng=3).fit(X, y).add_trees(X, y, trees=4)
+        assert_same_forest(forest, fl.Forest(trees=10, categorical=[0], rng=3).fit(X, y))
+        assert_same_oob(forest, fl.Forest(trees=10, categorical=[0], rng=3).fit(X, y))
