@@ -18,8 +18,8 @@ MEASUREMENTS = ["oven_temp_C", "line_speed_m_min", "humidity_pct", "viscosity_cP
                 "pigment_lot_age_d"]
 
 
-def make_batches(n: int, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
-    """Invented process records and grades; about 3% of the grades are deliberately recorded wrongly."""
+def make_batches(n: int, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Invented process records, grades, and which grades were deliberately recorded wrongly (about 3%)."""
     oven = rng.normal(182, 6, n)
     speed = rng.normal(24, 3, n)
     humidity = rng.uniform(25, 70, n)
@@ -33,18 +33,33 @@ def make_batches(n: int, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarr
     flipped = rng.random(n) < 0.03
     grade = np.where(rework ^ flipped, "rework", "pass")
     X = np.column_stack([oven, speed, humidity, viscosity, film, cure, lot_age])
-    return X, grade
+    return X, grade, flipped
+
+
+# The error curve "levels off" at the smallest number of trees after which it stays within this fraction of
+# the final out-of-bag error (OutOfBag.settles_at).
+LEVEL_BAND = 0.10
 
 
 def main() -> None:
     rng = np.random.default_rng(2026)
-    X, grade = make_batches(1500, rng)
-    new_X, new_grade = make_batches(500, rng)
+    X, grade, misgraded = make_batches(1500, rng)
+    new_X, new_grade, _ = make_batches(500, rng)
     forest = fl.Forest(trees=300, rng=11).fit(X, grade)
     print(f"forest: {forest.trees} trees on {X.shape[0]} batches x {X.shape[1]} measurements")
     print(f"classes (vote columns): {forest.classes.tolist()}")
+    oob = forest.oob
     error = np.mean(forest.predict(new_X) != new_grade)
+    print(f"out-of-bag error (no test set needed): {oob.error:.3f}")
     print(f"error on 500 new batches: {error:.3f}")
+    settled = oob.settles_at(LEVEL_BAND)
+    print(f"the OOB error curve stays within {LEVEL_BAND:.0%} of its final value from {settled} trees on "
+          f"(curve at 10, 50, 100 trees: {oob.error_curve[9]:.3f}, {oob.error_curve[49]:.3f}, "
+          f"{oob.error_curve[99]:.3f})")
+    doubtful = oob.doubtful(top=10)
+    print(doubtful)
+    found = np.count_nonzero(misgraded[doubtful.case])
+    print(f"{found} of these {len(doubtful)} were deliberately misgraded in the invented data")
     share = forest.votes(new_X)[:, list(forest.classes).index("rework")]
     close = np.flatnonzero((share > 0.3) & (share < 0.7))
     print(f"new batches with a split vote (30-70% 'rework'), worth a second inspection: {close.size}")

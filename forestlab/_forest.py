@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+import dataclasses
 from typing import Any
 
 import numpy as np
@@ -12,16 +13,19 @@ from numpy.typing import ArrayLike, NDArray
 from . import _dependence, _importance, _proximity
 from ._categorical import apply_levels, encode_columns
 from ._dependence import Dependence
+from ._fingerprint import check_same_data, data_fingerprint
 from ._grow import GrowthRules, grow_batch
 from ._importance import Importance
+from ._oob import out_of_bag
 from ._presort import TrainingData, presort
 from ._proximity import ProximityMap
+from ._results import OutOfBag
 from ._sampler import CandidateSampler
 from ._seeding import check_rng, root_seed, tree_seed
 from ._splitter import CartSplitter, GiniSplitter, SquaredErrorSplitter
 from ._tree import Tree, leaf_index
-from ._validation import (Settings, Target, check_settings, check_splitter_output, check_X, check_y,
-                          resolve_categorical)
+from ._validation import (Settings, Target, _int_at_least, check_settings, check_splitter_output, check_X,
+                          check_y, resolve_categorical)
 
 __all__ = ["Forest"]
 
@@ -88,6 +92,9 @@ class Forest:
         Number of features seen in fit.
     seed : numpy.random.SeedSequence
         Root seed; tree ``b`` is grown from ``SeedSequence(seed.entropy, spawn_key=seed.spawn_key + (b,))``.
+    oob : OutOfBag
+        Out-of-bag error, error curve, votes, margins, doubtful cases, strength and correlation, computed
+        on first access from the trees and :attr:`inbag`; :meth:`add_trees` grows more trees on the same data.
 
     Examples
     --------
@@ -120,6 +127,7 @@ class Forest:
         check_rng(rng)
         self._rng = rng
         self._trees: list[Tree] = []
+        self._oob: OutOfBag | None = None
 
     # ----------------------------------------------------------------------------------------- settings
     @property
@@ -183,6 +191,7 @@ class Forest:
         if X.shape[0] < 2:
             raise ValueError(f"`X` must have at least 2 rows to grow a tree; got {X.shape[0]}")
         target = check_y(y, X.shape[0], self._task_for())
+        fingerprint = data_fingerprint(X, target)
         rules = self._resolve_rules(target, X.shape)
         stats = check_splitter_output(rules.splitter, target)
         columns = resolve_categorical(self._settings.categorical, X.shape[1])
@@ -198,11 +207,49 @@ class Forest:
         self.features = X.shape[1]
         self._target = target
         self.seed = root_seed(self._rng)
+        self._fingerprint = fingerprint
+        self._oob = None
         trees, inbag = self._grow(range(self._settings.trees))
         self._trees = trees
         self.inbag = inbag
         self.inbag.flags.writeable = False
         return self
+
+    def add_trees(self, X: ArrayLike, y: ArrayLike, trees: int = 100) -> Forest:
+        """Grow ``trees`` more trees on the data the forest was fit on; returns the forest.
+
+        The new trees continue the seed numbering (tree ``b`` from ``SeedSequence(seed.entropy,
+        spawn_key=seed.spawn_key + (b,))``), so the result equals one :meth:`fit` with the total number of
+        trees and the same ``rng`` (a Generator ``rng`` is not drawn from again: :attr:`seed` is reused).
+        :attr:`inbag` grows by ``trees`` rows and :attr:`oob` is recomputed on next access.
+
+        Raises
+        ------
+        ValueError
+            When ``X`` or ``y`` differ from the fit data (checked by a sha256 fingerprint).
+        """
+        self._check_fitted()
+        more = _int_at_least(trees, "trees", 1)
+        X = check_X(X, features=self.features)
+        target = check_y(y, X.shape[0], self.task)
+        check_same_data(self._fingerprint, self._data.X.shape, X, target)
+        first = len(self._trees)
+        grown, counts = self._grow(range(first, first + more))
+        self._trees = self._trees + grown
+        self.inbag = np.concatenate([self.inbag, counts])
+        self.inbag.flags.writeable = False
+        self._settings = dataclasses.replace(self._settings, trees=len(self._trees))
+        self._oob = None
+        return self
+
+    def _clone_settings(self, rng: Any = None) -> Forest:
+        """A new, unfitted Forest with this forest's settings and the given ``rng``."""
+        clone = Forest.__new__(Forest)
+        clone._settings = self._settings
+        clone._rng = rng
+        clone._trees = []
+        clone._oob = None
+        return clone
 
     def _task_for(self) -> str | None:
         s = self._settings
@@ -238,6 +285,19 @@ class Forest:
             trees += grown
             counts.append(inbag)
         return trees, np.concatenate(counts)
+
+    # ----------------------------------------------------------------------------------------- out-of-bag
+    @property
+    def oob(self) -> OutOfBag:
+        """Out-of-bag results (:class:`OutOfBag`), computed on first access from the trees and :attr:`inbag`.
+
+        Cached until :meth:`fit` or :meth:`add_trees` change the forest. Warns once with
+        :class:`NeverOutOfBagWarning` when some case was never out-of-bag.
+        """
+        self._check_fitted()
+        if self._oob is None:
+            self._oob = out_of_bag(self._trees, self.inbag, self._data.X, self._target, stacklevel=2)
+        return self._oob
 
     # ----------------------------------------------------------------------------------------- inspection
     def tree(self, b: int) -> Tree:

@@ -6,7 +6,7 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 
 from __future__ import annotations
 
-__all__ = ["ForestlabWarning", "OverlapWarning", "SingleClassWarning"]
+__all__ = ["ForestlabWarning", "NeverOutOfBagWarning", "OverlapWarning", "SingleClassWarning"]
 
 
 class ForestlabWarning(UserWarning):
@@ -19,3 +19,10 @@ class SingleClassWarning(ForestlabWarning):
 
 class OverlapWarning(ForestlabWarning):
     """Some pairs of cases are never out-of-bag in the same tree, so their OOB proximity is undefined (NaN)."""
+
+
+class NeverOutOfBagWarning(ForestlabWarning):
+    """Some training case was in every tree's bootstrap sample, so no out-of-bag result exists for it.
+
+    The case gets NaN (or no label) and is left out of the out-of-bag error; more trees usually cover it.
+    """

@@ -42,3 +42,19 @@ class TestBatchInspectionDemo:
         listed = re.findall(r"^  batch +\d+: (\d+)% of trees say rework; lab graded '(pass|rework)'$", out, re.M)
         assert flagged > 0 and len(listed) == min(8, flagged)
         assert all(30 <= int(share) <= 70 for share, _ in listed)  # printed rounded
+
+    def test_out_of_bag_lines(self, demo_run):
+        # Breiman (1996), "Out-of-bag estimation": the OOB error estimates the error on new cases; both are
+        # proportions of about 1500 and 500 cases, so they agree within a few points.
+        out = demo_run.stdout
+        oob = float(re.search(r"^out-of-bag error \(no test set needed\): (0\.\d{3})$", out, re.M).group(1))
+        new = float(re.search(r"^error on 500 new batches: (0\.\d{3})$", out, re.M).group(1))
+        assert abs(oob - new) < 0.05
+        settled = int(re.search(r"within 10% of its final value from (\d+) trees on", out, re.M).group(1))
+        assert 1 <= settled <= 300
+        rows = re.findall(r"^ *(\d+)  (pass|rework) +(pass|rework) +(-\d\.\d{3}) +(\d+)$", out, re.M)
+        assert len(rows) == 10 and all(observed != oob_label for _, observed, oob_label, _, _ in rows)
+        margins = [float(m) for *_, m, _ in rows]
+        assert margins == sorted(margins)
+        found = int(re.search(r"^(\d+) of these 10 were deliberately misgraded", out, re.M).group(1))
+        assert found >= 7          # measured 10 of 10

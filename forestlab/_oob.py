@@ -1,0 +1,223 @@
+"""Out-of-bag analyses from the stored trees and in-bag counts, in one pass over the trees.
+
+Case ``i`` is out-of-bag (OOB) for tree ``b`` when ``inbag[b, i] == 0`` (Breiman 1996, "Out-of-bag
+estimation"). Every tree predicts only its OOB rows, once; the per-case votes (or sums) are then accumulated
+tree by tree, and the error of the first ``b + 1`` trees is updated from the cases tree ``b`` touched, so the
+whole error curve costs one pass (no per-``b`` re-aggregation).
+
+Strength and correlation follow Breiman (2001), "Random forests", section 2 and appendix II. With
+``Q(x, j)`` the OOB vote share of class ``j`` at ``x`` and ``j_hat(x, y) = argmax_{j != y} Q(x, j)`` (lowest
+index on ties):
+
+- margin ``mr(x, y) = Q(x, y) - Q(x, j_hat)``; strength ``s = mean mr``; ``var(mr) = mean mr^2 - s^2``;
+- per tree ``k``, over its OOB cases: ``p1 = P(h_k(x) = y)``, ``p2 = P(h_k(x) = j_hat(x, y))``, and the sd of
+  its raw margin function ``rmg = I(h_k = y) - I(h_k = j_hat)`` is ``sqrt(p1 + p2 - (p1 - p2)^2)``;
+- ``rho_bar = var(mr) / (mean_k sd_k)^2`` and the bound ``PE* <= rho_bar (1 - s^2) / s^2``.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, replace
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ._results import OutOfBag
+from ._tree import Tree, leaf_index
+from ._validation import Target
+from ._warnings import NeverOutOfBagWarning
+
+__all__ = ["out_of_bag"]
+
+
+@dataclass(frozen=True)
+class _Entries:
+    """Every OOB (tree, case) pair, grouped by tree in tree order, with the tree's prediction."""
+
+    row: NDArray[np.intp]     # (E,) the case
+    value: NDArray            # (E,) the tree's class index (int64) or value (float64)
+    start: NDArray[np.intp]   # (trees + 1,) tree b owns entries start[b]:start[b + 1]
+
+    def of_tree(self, b: int) -> tuple[NDArray[np.intp], NDArray]:
+        s, e = self.start[b], self.start[b + 1]
+        return self.row[s:e], self.value[s:e]
+
+    @property
+    def tree(self) -> NDArray[np.intp]:
+        return np.repeat(np.arange(self.start.size - 1), np.diff(self.start))
+
+
+def oob_entries(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float64]) -> _Entries:
+    """Each tree's prediction for its own OOB rows only (one level-wise pass per tree)."""
+    tree_of, row = np.nonzero(inbag == 0)
+    start = np.searchsorted(tree_of, np.arange(len(trees) + 1))
+    value = np.empty(row.size)
+    for b, tree in enumerate(trees):
+        s, e = start[b], start[b + 1]
+        value[s:e] = tree.value[leaf_index(tree, X[row[s:e]])]
+    return _Entries(row=row, value=value, start=start)
+
+
+def out_of_bag(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float64], target: Target,
+               stacklevel: int = 1) -> OutOfBag:
+    """Compute every OOB result of a fitted forest (see :class:`OutOfBag`).
+
+    Parameters
+    ----------
+    trees : list of Tree
+        The forest's trees, in seed order.
+    inbag : ndarray of uint8, shape (trees, n)
+        Their bootstrap counts; case ``i`` is OOB for tree ``b`` when ``inbag[b, i] == 0``.
+    X : ndarray of float64, shape (n, p)
+        The training predictors.
+    target : Target
+        The validated training targets.
+    stacklevel : int, default 1
+        Frame the warning points at, counted from the caller of this function.
+
+    Warns
+    -----
+    NeverOutOfBagWarning
+        When some case was in every bootstrap sample.
+    """
+    entries = oob_entries(trees, inbag, X)
+    n = X.shape[0]
+    if target.task == "classification":
+        result = _classification(entries, target, n)
+    else:
+        result = _regression(entries, target.values)
+    never = int(np.count_nonzero(result.coverage == 0))
+    if never:
+        warnings.warn(
+            f"{never} of {n} cases were in every bootstrap sample (never out-of-bag); they get NaN / no "
+            f"label and are left out of the OOB error. Grow more trees with `add_trees` to cover them.",
+            NeverOutOfBagWarning, stacklevel=stacklevel + 1)
+    return result
+
+
+# ------------------------------------------------------------------------------------- classification
+def _class_pass(entries: _Entries, y: NDArray[np.int64], n: int, K: int):
+    """Vote counts (n, K) and the error curve, accumulated tree by tree."""
+    trees = entries.start.size - 1
+    counts = np.zeros((n, K), dtype=np.int64)
+    wrong = np.zeros(n, dtype=bool)
+    seen = np.zeros(n, dtype=bool)
+    n_wrong = n_seen = 0
+    curve = np.full(trees, np.nan)
+    for b in range(trees):
+        rows, cls = entries.of_tree(b)
+        counts[rows, cls] += 1
+        now_wrong = np.argmax(counts[rows], axis=1) != y[rows]
+        n_wrong += int(np.count_nonzero(now_wrong)) - int(np.count_nonzero(wrong[rows]))
+        n_seen += rows.size - int(np.count_nonzero(seen[rows]))
+        wrong[rows] = now_wrong
+        seen[rows] = True
+        if n_seen:
+            curve[b] = n_wrong / n_seen
+    return counts, curve
+
+
+def _classification(entries: _Entries, target: Target, n: int) -> OutOfBag:
+    y, classes = target.values, target.classes
+    K = classes.size
+    entries = replace(entries, value=entries.value.astype(np.intp))
+    counts, curve = _class_pass(entries, y, n, K)
+    coverage = counts.sum(axis=1)
+    covered = coverage > 0
+    votes = np.full((n, K), np.nan)
+    votes[covered] = counts[covered] / coverage[covered, None]
+    index = np.where(covered, np.argmax(counts, axis=1), -1)
+    others = np.where(covered[:, None], votes, 0.0)
+    others[np.arange(n), y] = -1.0                      # never the runner-up: its own class
+    j_hat = np.argmax(others, axis=1) if K > 1 else np.zeros(n, dtype=np.int64)
+    runner_up = np.maximum(others[np.arange(n), j_hat], 0.0)
+    margins = np.where(covered, np.where(covered, votes[np.arange(n), y], 0.0) - runner_up, np.nan)
+    labels = classes[np.maximum(index, 0)]
+    if not covered.all():
+        labels = labels.astype(object)
+        labels[~covered] = None
+    yc, ic = y[covered], index[covered]
+    confusion = np.bincount(yc * K + ic, minlength=K * K).reshape(K, K)
+    per_class = confusion.sum(axis=1)
+    by_class = np.full(K, np.nan)
+    has = per_class > 0
+    by_class[has] = 1.0 - np.diag(confusion)[has] / per_class[has]
+    error = float(np.count_nonzero(yc != ic) / yc.size) if yc.size else float("nan")
+    s, rho, bound = _strength_correlation(entries, y, j_hat, margins[covered], K)
+    return OutOfBag(task="classification", observed=classes[y], predictions=labels, class_index=index,
+                    votes=votes, coverage=coverage, error=error, error_curve=curve, margins=margins,
+                    classes=classes, confusion=confusion, by_class=by_class, strength=s, correlation=rho,
+                    error_bound=bound)
+
+
+def _strength_correlation(entries: _Entries, y: NDArray[np.int64], j_hat: NDArray[np.int64],
+                          mr: NDArray[np.float64], K: int) -> tuple[float, float, float]:
+    """Breiman's (2001, appendix II) OOB estimates of s, rho-bar and the bound rho-bar (1 - s^2) / s^2."""
+    if K < 2 or mr.size == 0:
+        return float("nan"), float("nan"), float("nan")
+    s = float(np.mean(mr))
+    var_mr = float(np.var(mr))
+    tree = entries.tree
+    trees = entries.start.size - 1
+    size = np.bincount(tree, minlength=trees)
+    cls = entries.value
+    p1 = np.bincount(tree, weights=cls == y[entries.row], minlength=trees)
+    p2 = np.bincount(tree, weights=cls == j_hat[entries.row], minlength=trees)
+    used = size > 0
+    p1, p2 = p1[used] / size[used], p2[used] / size[used]
+    sd = np.sqrt(np.maximum(p1 + p2 - (p1 - p2) ** 2, 0.0))
+    mean_sd = float(np.mean(sd))
+    rho = var_mr / mean_sd**2 if mean_sd > 0 else float("nan")
+    bound = rho * (1.0 - s**2) / s**2 if s > 0 else float("inf")
+    return s, rho, bound
+
+
+# ------------------------------------------------------------------------------------------ regression
+def _regression_pass(entries: _Entries, y: NDArray[np.float64], n: int):
+    """OOB sums and counts per case, and the error curve, accumulated tree by tree."""
+    trees = entries.start.size - 1
+    sums = np.zeros(n)
+    count = np.zeros(n, dtype=np.int64)
+    squared = np.zeros(n)
+    sse, n_seen = 0.0, 0
+    curve = np.full(trees, np.nan)
+    for b in range(trees):
+        rows, value = entries.of_tree(b)
+        n_seen += int(np.count_nonzero(count[rows] == 0))
+        sums[rows] += value
+        count[rows] += 1
+        now = (y[rows] - sums[rows] / count[rows]) ** 2
+        sse += float(np.sum(now) - np.sum(squared[rows]))
+        squared[rows] = now
+        if n_seen:
+            curve[b] = max(sse, 0.0) / n_seen
+    return sums, count, curve
+
+
+def _regression(entries: _Entries, y: NDArray[np.float64]) -> OutOfBag:
+    n = y.size
+    sums, coverage, curve = _regression_pass(entries, y, n)
+    covered = coverage > 0
+    c = np.maximum(coverage, 1)
+    predictions = np.where(covered, sums / c, np.nan)
+    deviation = entries.value - predictions[entries.row]
+    spread = np.where(covered, np.sqrt(np.bincount(entries.row, weights=deviation**2, minlength=n) / c), np.nan)
+    residuals = y - predictions
+    margins = _standardised(residuals, spread, covered)
+    error = float(np.mean(residuals[covered] ** 2)) if covered.any() else float("nan")
+    var_y = float(np.var(y[covered])) if covered.any() else 0.0
+    explained = 1.0 - error / var_y if var_y > 0 else float("nan")
+    return OutOfBag(task="regression", observed=y, predictions=predictions, class_index=None, votes=None,
+                    coverage=coverage, error=error, error_curve=curve, margins=margins, residuals=residuals,
+                    spread=spread, explained_variance=explained)
+
+
+def _standardised(residuals: NDArray[np.float64], spread: NDArray[np.float64],
+                  covered: NDArray[np.bool_]) -> NDArray[np.float64]:
+    """residual / spread; +-inf when the spread is 0 and the residual is not, 0 when both are 0."""
+    out = np.full(residuals.shape, np.nan)
+    out[covered] = np.where(residuals[covered] == 0.0, 0.0, np.copysign(np.inf, residuals[covered]))
+    positive = covered & (spread > 0)
+    out[positive] = residuals[positive] / spread[positive]
+    return out
