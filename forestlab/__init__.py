@@ -3,6 +3,9 @@
 from ._dependence import Dependence as Dependence
 from ._forest import Forest as Forest
 from ._importance import Importance as Importance
+from ._modelcheck import ModelFileError as ModelFileError
+from ._persist import StoredComponent as StoredComponent
+from ._persist import load as load
 from ._proximity import ProximityMap as ProximityMap
 from ._proximity import classical_scaling as classical_scaling
 from ._sampler import AllFeatures as AllFeatures
@@ -15,6 +18,7 @@ from ._splitter import GiniSplitter as GiniSplitter
 from ._splitter import SquaredErrorSplitter as SquaredErrorSplitter
 from ._tree import Tree as Tree
 from ._warnings import ForestlabWarning as ForestlabWarning
+from ._warnings import IncompleteForestWarning as IncompleteForestWarning
 from ._warnings import OverlapWarning as OverlapWarning
 from ._warnings import SingleClassWarning as SingleClassWarning
 
@@ -30,12 +34,16 @@ __all__ = [
     "ForestlabWarning",
     "GiniSplitter",
     "Importance",
+    "IncompleteForestWarning",
+    "ModelFileError",
     "OverlapWarning",
     "ProximityMap",
     "RandomSubset",
     "SingleClassWarning",
     "SquaredErrorSplitter",
+    "StoredComponent",
     "Tree",
     "TreeSubspace",
     "classical_scaling",
+    "load",
 ]

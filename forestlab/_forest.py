@@ -17,6 +17,7 @@ from ._bootstrap import balanced_sample_size
 from ._dependence import Dependence
 from ._grow import GrowthRules, grow_batch
 from ._importance import Importance
+from ._persist import growth_blocker, save_forest
 from ._presort import TrainingData, presort
 from ._proximity import ProximityMap
 from ._sampler import CandidateSampler
@@ -219,7 +220,8 @@ class Forest:
         ``X`` is an array or a data frame of numeric columns (its column names become
         :attr:`feature_names`). ``weights`` (n,) are optional case weights, finite, ``>= 0`` and not all
         zero: a case drawn ``c`` times weighs ``c * weight`` in every split score, in ``min_leaf`` and in the
-        leaf values; :attr:`inbag` keeps the unweighted draw counts. Refitting replaces every tree.
+        leaf values; :attr:`inbag` keeps the unweighted draw counts. A case of weight 0 adds nothing to any
+        sum but still counts when the grower tests whether a node is pure. Refitting replaces every tree.
         """
         values, names = read_table(X)
         X = check_X(values)
@@ -302,8 +304,9 @@ class Forest:
 
     def _grow_checked(self, ids: list[int], counts: list[NDArray[np.uint8]]) -> list[Tree]:
         """``grow_batch`` for the given trees; refuses a tree whose sample holds only zero-weight cases."""
-        if self._data is None:
-            raise RuntimeError(MSG_NO_DATA)
+        blocker = growth_blocker(self)
+        if blocker is not None or self._data is None:
+            raise RuntimeError(blocker or MSG_NO_DATA)
         w = self._data.weights
         zeros = w is not None and not np.all(w > 0)
         with np.errstate(divide="ignore", invalid="ignore") if zeros else nullcontext():
@@ -438,8 +441,6 @@ class Forest:
         grow more trees or compute out-of-bag results; without them it still predicts. Read it back with
         :func:`forestlab.load`.
         """
-        from ._modelfile import save_forest
-
         self._check_fitted()
         save_forest(self, path, include_data=include_data)
 

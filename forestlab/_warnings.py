@@ -6,7 +6,7 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 
 from __future__ import annotations
 
-__all__ = ["ForestlabWarning", "OverlapWarning", "SingleClassWarning"]
+__all__ = ["ForestlabWarning", "IncompleteForestWarning", "OverlapWarning", "SingleClassWarning"]
 
 
 class ForestlabWarning(UserWarning):
@@ -19,3 +19,7 @@ class SingleClassWarning(ForestlabWarning):
 
 class OverlapWarning(ForestlabWarning):
     """Some pairs of cases are never out-of-bag in the same tree, so their OOB proximity is undefined (NaN)."""
+
+
+class IncompleteForestWarning(ForestlabWarning):
+    """A loaded forest names a custom sampler or splitter that was not supplied: it predicts but cannot grow."""

@@ -67,7 +67,8 @@ def check_class_weights(spec: Any) -> dict | str | None:
                         f"got {type(spec).__name__}")
     for label, w in spec.items():
         if isinstance(w, (bool, np.bool_)) or not isinstance(w, numbers.Real) or not np.isfinite(w) or w <= 0:
-            raise ValueError(f"`class_weights` must map labels to positive finite numbers; got {w!r} for {label!r}")
+            raise ValueError(f"`class_weights` must map labels to positive finite numbers; "
+                             f"got {w!r} for {label!r}")
     return {label: float(w) for label, w in spec.items()}
 
 
@@ -85,8 +86,8 @@ def class_weight_vector(spec: dict | str, classes: NDArray, codes: NDArray[np.in
     labels = classes.tolist()
     unknown = [key for key in spec if key not in set(labels)]
     if unknown:
-        raise ValueError(f"`class_weights` names {', '.join(sorted(map(repr, unknown)))}, which are not classes of `y` "
-                         f"({labels})")
+        names = ", ".join(sorted(map(repr, unknown)))
+        raise ValueError(f"`class_weights` names {names}, which are not classes of `y` ({labels})")
     return np.array([spec.get(label, 1.0) for label in labels], dtype=np.float64)
 
 
