@@ -16,8 +16,8 @@ import numpy as np
 __all__ = ["default_names", "is_frame", "read_table", "match_columns"]
 
 MSG_CATEGORICAL = (
-    "`{name}` has non-numeric column(s) {columns} (category, object or string dtype); categorical predictors "
-    "need the `categorical=` support, which forestlab does not have yet. For now, encode them as numbers, "
+    "`{name}` has non-numeric column(s) {columns} (category, object, string or date dtype); categorical "
+    "predictors need the `categorical=` support, which forestlab does not have yet. For now, encode them as numbers, "
     "for example one 0/1 indicator column per category"
 )
 
