@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from contextlib import nullcontext
 from os import PathLike
 from typing import Any
 
@@ -218,10 +217,10 @@ class Forest:
         """Grow the forest on predictors ``X`` (n, p) and targets ``y`` (n,); returns the forest.
 
         ``X`` is an array or a data frame of numeric columns (its column names become
-        :attr:`feature_names`). ``weights`` (n,) are optional case weights, finite, ``>= 0`` and not all
-        zero: a case drawn ``c`` times weighs ``c * weight`` in every split score, in ``min_leaf`` and in the
-        leaf values; :attr:`inbag` keeps the unweighted draw counts. A case of weight 0 adds nothing to any
-        sum but still counts when the grower tests whether a node is pure. Refitting replaces every tree.
+        :attr:`feature_names`). ``weights`` (n,) are optional case weights, finite and positive: a case
+        drawn ``c`` times weighs ``c * weight`` in every split score, in ``min_leaf`` and in the leaf values;
+        :attr:`inbag` keeps the unweighted draw counts. Zero weights are not accepted yet; drop those rows
+        instead. Refitting replaces every tree.
         """
         values, names = read_table(X)
         X = check_X(values)
@@ -303,18 +302,11 @@ class Forest:
         return trees, np.concatenate(counts)
 
     def _grow_checked(self, ids: list[int], counts: list[NDArray[np.uint8]]) -> list[Tree]:
-        """``grow_batch`` for the given trees; refuses a tree whose sample holds only zero-weight cases."""
+        """``grow_batch`` for the given trees (their in-bag counts appended to ``counts``)."""
         blocker = growth_blocker(self)
         if blocker is not None or self._data is None:
             raise RuntimeError(blocker or MSG_NO_DATA)
-        w = self._data.weights
-        zeros = w is not None and not np.all(w > 0)
-        with np.errstate(divide="ignore", invalid="ignore") if zeros else nullcontext():
-            grown, inbag = grow_batch(self._data, self._rules, [tree_seed(self.seed, b) for b in ids])
-        empty = [b for b, tree in zip(ids, grown) if not tree.cases[0] > 0]
-        if empty:
-            raise ValueError(f"`weights`: the bootstrap sample of tree {empty[0]} holds only cases of weight 0; "
-                             "give fewer cases zero weight (or drop them from the data)")
+        grown, inbag = grow_batch(self._data, self._rules, [tree_seed(self.seed, b) for b in ids])
         counts.append(inbag)
         return grown
 

@@ -16,7 +16,7 @@ __all__ = ["ModelFileError", "check_trees", "field", "int_field", "check_classes
 
 # dtypes of the node arrays, as written (little-endian); a file with any other dtype is refused
 NODE_DTYPES = {"feature": "<i4", "threshold": "<f8", "left": "<i4", "right": "<i4", "value": "<f8",
-               "cases": "<f8", "decrease": "<f8", "depth": "<i4"}
+               "cases": "<f8", "decrease": "<f8", "depth": "<i4", "missing_left": "|b1"}
 LABEL_KINDS = "biufUS"
 
 
@@ -91,6 +91,8 @@ def _check_node_values(nodes: dict[str, NDArray], offsets: NDArray[np.int64], cl
     inner = feature >= 0
     if not np.all(np.isfinite(threshold[inner])) or not np.all(np.isnan(threshold[~inner])):
         raise ModelFileError("thresholds must be finite at inner nodes and NaN at leaves")
+    if np.any(nodes["missing_left"][~inner]):
+        raise ModelFileError("a leaf sends missing values somewhere (missing_left must be False at leaves)")
     value = nodes["value"]
     check_finite("node values", value)
     if classes and np.any((value < 0) | (value >= classes) | (value != np.floor(value))):

@@ -34,7 +34,8 @@ BUILTIN = {"sampler": {c.__name__: c for c in (AllFeatures, RandomSubset, TreeSu
            "splitter": {c.__name__: c for c in (EntropySplitter, GiniSplitter, SquaredErrorSplitter)}}
 BASES = {"sampler": CandidateSampler, "splitter": CartSplitter}
 TREE_FIELDS = {"feature": "feature", "threshold": "threshold", "left": "left", "right": "right",
-               "value": "value", "cases": "cases", "decrease": "impurity_decrease", "depth": "depth"}
+               "value": "value", "cases": "cases", "decrease": "impurity_decrease", "depth": "depth",
+               "missing_left": "missing_left"}
 MAX_SEED_WORDS = 64
 
 
@@ -202,9 +203,9 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Any:
     check_trees({k: arrays[k] for k in TREE_FIELDS}, arrays["offsets"], len(names), K)
     weights = arrays.get("case_weights")
     if weights is not None:
-        check_finite("case weights", weights, low=0.0)
-        if not np.any(weights > 0):
-            raise ModelFileError("the file's case weights are all zero")
+        check_finite("case weights", weights)
+        if not np.all(weights > 0):
+            raise ModelFileError("the file's case weights must all be positive")
     sampler = _restore(field(header, "sampler", dict), "sampler", components)
     splitter = _restore(field(header, "splitter", dict), "splitter", components)
     if isinstance(splitter, CartSplitter) and splitter.task != task:
@@ -330,7 +331,8 @@ def _training_data(header: dict, arrays: dict, forest: Any, class_vector: NDArra
     if "X" not in arrays:
         return Target(forest.task, None, forest.classes), None
     X, y = arrays["X"], arrays["y"]
-    check_finite("predictors X", X)
+    if np.any(np.isinf(X)):
+        raise ModelFileError("the file's predictors X hold infinite values")
     if forest.classes is not None:
         if y.size and (y.min() < 0 or y.max() >= forest.classes.size):
             raise ModelFileError("the file's class codes y lie outside the classes")

@@ -21,7 +21,8 @@ from hypothesis import strategies as st
 
 import forestlab as fl
 
-NODE_ARRAYS = ("feature", "threshold", "left", "right", "value", "cases", "impurity_decrease", "depth")
+NODE_ARRAYS = ("feature", "threshold", "left", "right", "value", "cases", "impurity_decrease", "depth",
+               "missing_left")
 
 
 def _data(n=150, p=4, seed=0):
@@ -54,6 +55,8 @@ CASES = {
     "str-balanced-weights-nonreplace": dict(labels="str", options={"class_weights": "balanced", "replace": False,
                                                                    "sample_size": 0.6}, weights=True),
     "regression": dict(labels=None, options={}),
+    "regression-missing-values": dict(labels=None, options={"min_leaf": 2}, gaps=True),
+    "str-missing-values": dict(labels="str", options={}, gaps=True),
     "regression-weights-bagging": dict(labels=None, options={"sampler": fl.AllFeatures(), "min_leaf": 3},
                                        weights=True),
 }
@@ -63,7 +66,10 @@ def _fit(case, seed=3):
     X, score = _data()
     y = score if case["labels"] is None else _labels(case["labels"], score)
     w = np.random.default_rng(1).uniform(0.2, 3, size=len(y)) if case.get("weights") else None
-    w = None if w is None else (np.round(w) if case["labels"] == "int" else w)
+    w = None if w is None else (np.round(w) + 1 if case["labels"] == "int" else w)
+    if case.get("gaps"):
+        X = X.copy()
+        X[np.random.default_rng(2).random(X.shape) < 0.15] = np.nan
     return fl.Forest(trees=12, rng=seed, **case["options"]).fit(X, y, weights=w), X
 
 
@@ -108,6 +114,7 @@ class TestRoundTrip:
         loaded = _save_load(forest, include_data=include_data)
         _assert_same_forest(forest, loaded)
         fresh = np.random.default_rng(9).normal(size=(60, X.shape[1])) * 2
+        fresh[::7, 1] = np.nan
         np.testing.assert_array_equal(loaded.per_tree(fresh), forest.per_tree(fresh))
         np.testing.assert_array_equal(loaded.predict(fresh), forest.predict(fresh))
         if forest.task == "classification":
@@ -357,8 +364,8 @@ def _outcome_is_clean(blob):
     forest.predict(PROBE)
 
 
-MUTABLE = ("feature", "threshold", "left", "right", "value", "cases", "decrease", "depth", "offsets", "inbag",
-           "y", "case_weights")
+MUTABLE = ("feature", "threshold", "left", "right", "value", "cases", "decrease", "depth", "missing_left",
+           "offsets", "inbag", "y", "case_weights")
 
 
 class TestLoaderFuzz:
