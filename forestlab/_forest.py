@@ -242,6 +242,7 @@ class Forest:
         self._data = presort(X, target.values, stats, classes, categories,
                              growth_weights(case_weights, class_vector, target.values),
                              target.values if self._settings.balance else None)
+        self._categories = self._data.categories
         self._rules = rules
         self.task = target.task
         self.classes = target.classes
@@ -335,7 +336,7 @@ class Forest:
         X = self._check_predict_X(X)
         out = np.empty((len(self._trees), X.shape[0]))
         for b, tree in enumerate(self._trees):
-            out[b] = tree.value[leaf_index(tree, X, self._data.categories)]
+            out[b] = tree.value[leaf_index(tree, X, self._categories)]
         return out.astype(np.int64) if self.task == "classification" else out
 
     def votes(self, X: ArrayLike) -> NDArray[np.float64]:

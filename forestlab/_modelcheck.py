@@ -16,7 +16,8 @@ __all__ = ["ModelFileError", "check_trees", "field", "int_field", "check_classes
 
 # dtypes of the node arrays, as written (little-endian); a file with any other dtype is refused
 NODE_DTYPES = {"feature": "<i4", "threshold": "<f8", "left": "<i4", "right": "<i4", "value": "<f8",
-               "cases": "<f8", "decrease": "<f8", "depth": "<i4", "missing_left": "|b1"}
+               "cases": "<f8", "decrease": "<f8", "depth": "<i4", "missing_left": "|b1",
+               "category_left": "<u8"}
 LABEL_KINDS = "biufUS"
 
 
@@ -85,12 +86,18 @@ def _check_links(nodes: dict[str, NDArray], offsets: NDArray[np.int64], features
         raise ModelFileError("a node has no parent or more than one: the node arrays do not form trees")
 
 
-def _check_node_values(nodes: dict[str, NDArray], offsets: NDArray[np.int64], classes: int) -> None:
-    """Thresholds finite at inner nodes and NaN at leaves; values, weights, decreases and depths sound."""
+def _check_node_values(nodes: dict[str, NDArray], offsets: NDArray[np.int64], classes: int,
+                       categories: NDArray[np.int64]) -> None:
+    """Thresholds finite at numeric splits and NaN elsewhere; category sets only at categorical splits;
+    values, weights, decreases and depths sound."""
     feature, threshold = nodes["feature"], nodes["threshold"]
     inner = feature >= 0
-    if not np.all(np.isfinite(threshold[inner])) or not np.all(np.isnan(threshold[~inner])):
-        raise ModelFileError("thresholds must be finite at inner nodes and NaN at leaves")
+    on_category = inner & (categories[np.maximum(feature, 0)] > 0)
+    numeric = inner & ~on_category
+    if not np.all(np.isfinite(threshold[numeric])) or not np.all(np.isnan(threshold[~numeric])):
+        raise ModelFileError("thresholds must be finite at numeric splits and NaN at leaves and category splits")
+    if np.any(nodes["category_left"][~on_category]):
+        raise ModelFileError("a node that does not split a categorical feature has a category set")
     if np.any(nodes["missing_left"][~inner]):
         raise ModelFileError("a leaf sends missing values somewhere (missing_left must be False at leaves)")
     value = nodes["value"]
@@ -109,11 +116,34 @@ def _check_node_values(nodes: dict[str, NDArray], offsets: NDArray[np.int64], cl
         raise ModelFileError("node depths are inconsistent with the tree structure")
 
 
-def check_trees(nodes: dict[str, NDArray], offsets: NDArray[np.int64], features: int, classes: int) -> None:
-    """Validate the concatenated node arrays of all trees against the per-tree ``offsets``."""
+def check_levels(features: NDArray[np.int64], offsets: NDArray[np.int64], values: NDArray[np.float64],
+                 p: int, words: int) -> dict[int, NDArray[np.float64]]:
+    """Category values of every categorical feature: distinct features in range, strictly increasing finite
+    values per feature, at most ``64 * words`` of them, and ``words`` just enough for the largest."""
+    if features.size and (np.any(features < 0) or np.any(features >= p) or np.unique(features).size != features.size):
+        raise ModelFileError(f"the categorical features must be distinct positions in 0 .. {p - 1}")
+    if offsets[0] != 0 or offsets[-1] != values.size or np.any(np.diff(offsets) < 1):
+        raise ModelFileError("the category level offsets must start at 0, rise and end at the value count")
+    check_finite("category levels", values)
+    size = np.diff(offsets)
+    first = np.zeros(values.size, dtype=bool)
+    first[offsets[:-1]] = True
+    if np.any(~first[1:] & (values[1:] <= values[:-1])):
+        raise ModelFileError("the category levels of a feature must be strictly increasing")
+    if words != (-(-int(size.max()) // 64) if size.size else 0):
+        raise ModelFileError("the category set width does not fit the largest number of categories")
+    return {int(j): values[lo:hi] for j, lo, hi in zip(features, offsets[:-1], offsets[1:])}
+
+
+def check_trees(nodes: dict[str, NDArray], offsets: NDArray[np.int64], features: int, classes: int,
+                categories: NDArray[np.int64]) -> None:
+    """Validate the concatenated node arrays of all trees against the per-tree ``offsets``.
+
+    ``categories`` (features,) is the number of categories of each categorical feature, 0 for numeric ones.
+    """
     total = nodes["feature"].size
     if offsets.ndim != 1 or offsets.size < 2 or offsets[0] != 0 or offsets[-1] != total \
             or np.any(np.diff(offsets) < 1):
         raise ModelFileError("the tree offsets must start at 0, rise by at least 1 and end at the node count")
     _check_links(nodes, offsets, features)
-    _check_node_values(nodes, offsets, classes)
+    _check_node_values(nodes, offsets, classes, categories)

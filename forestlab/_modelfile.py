@@ -154,6 +154,11 @@ def _member_shapes(header: dict) -> dict[str, tuple[str, tuple[int, ...]]]:
     cases = int_field(header, "cases", 1)
     features = int_field(header, "features", 1)
     shapes = {name: (NODE_DTYPES[name], (nodes,)) for name in NODE_MEMBERS}
+    shapes["category_left"] = ("<u8", (nodes, int_field(header, "category_words", 0)))
+    levels = int_field(header, "categorical_features", 0)
+    shapes["level_features"] = ("<i8", (levels,))
+    shapes["level_offsets"] = ("<i8", (levels + 1,))
+    shapes["level_values"] = ("<f8", (int_field(header, "category_levels", 0),))
     shapes["offsets"] = ("<i8", (trees + 1,))
     shapes["inbag"] = ("|u1", (trees, cases))
     labels = field(header, "classes", (dict, type(None)))

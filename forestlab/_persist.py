@@ -17,14 +17,14 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ._grow import GrowthRules
-from ._modelcheck import (LABEL_KINDS, NODE_DTYPES, ModelFileError, check_classes, check_finite, check_trees, field,
-                          int_field)
+from ._modelcheck import (LABEL_KINDS, NODE_DTYPES, ModelFileError, check_classes, check_finite, check_levels,
+                          check_trees, field, int_field)
 from ._modelfile import FORMAT_NAME, FORMAT_VERSION, data_fingerprint, read_model, write_model
 from ._presort import presort
 from ._sampler import AllFeatures, CandidateSampler, RandomSubset, TreeSubspace
 from ._splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from ._tree import Tree
-from ._validation import Target, check_splitter_output
+from ._validation import Target, check_splitter_output, resolve_categorical
 from ._warnings import IncompleteForestWarning
 from ._weights import growth_weights
 
@@ -35,7 +35,7 @@ BUILTIN = {"sampler": {c.__name__: c for c in (AllFeatures, RandomSubset, TreeSu
 BASES = {"sampler": CandidateSampler, "splitter": CartSplitter}
 TREE_FIELDS = {"feature": "feature", "threshold": "threshold", "left": "left", "right": "right",
                "value": "value", "cases": "cases", "decrease": "impurity_decrease", "depth": "depth",
-               "missing_left": "missing_left"}
+               "missing_left": "missing_left", "category_left": "category_left"}
 MAX_SEED_WORDS = 64
 
 
@@ -86,6 +86,7 @@ def save_forest(forest: Any, path: str | PathLike, include_data: bool = False) -
               for name, attr in TREE_FIELDS.items()}
     arrays["offsets"] = np.concatenate([[0], np.cumsum([t.nodes for t in trees])]).astype("<i8")
     arrays["inbag"] = np.ascontiguousarray(forest.inbag, dtype=np.uint8)
+    arrays.update(_level_arrays(forest._levels))
     labels = None
     if forest.classes is not None:
         arrays["classes"], is_object = _typed_labels(forest.classes)
@@ -111,16 +112,30 @@ def _header(forest: Any, labels: dict | None, include_data: bool, arrays: dict) 
         "task": forest.task, "trees": len(forest._trees), "nodes": int(arrays["feature"].size),
         "cases": int(forest.inbag.shape[1]), "features": int(forest.features),
         "feature_names": list(forest.feature_names), "classes": labels,
+        "category_words": int(arrays["category_left"].shape[1]),
+        "categorical_features": int(arrays["level_features"].size),
+        "category_levels": int(arrays["level_values"].size),
         "settings": {"min_leaf": rules.min_leaf, "depth_limit": rules.depth_limit,
                      "sample_size": rules.sample_size, "replace": rules.replace, "balance": s.balance,
                      "class_weights": None if spec is None else ("balanced" if spec == "balanced" else "given"),
-                     "workers": s.workers},
+                     "workers": s.workers,
+                     "categorical": None if s.categorical is None else list(s.categorical)},
         "class_weight_values": class_values,
         "sampler": _describe(rules.sampler, "sampler"), "splitter": _describe(rules.splitter, "splitter"),
         "seed": {"entropy": _seed_words(seed.entropy), "spawn_key": [int(k) for k in seed.spawn_key],
                  "pool_size": int(seed.pool_size)},
         "fingerprint": fingerprint, "has_data": include_data, "has_case_weights": "case_weights" in arrays,
     }
+
+
+def _level_arrays(levels: dict[int, NDArray]) -> dict[str, NDArray]:
+    """The category values of every categorical feature, concatenated in feature order, with offsets."""
+    features = sorted(levels)
+    sizes = [levels[j].size for j in features]
+    values = [levels[j] for j in features]
+    return {"level_features": np.array(features, dtype="<i8"),
+            "level_offsets": np.concatenate([[0], np.cumsum(sizes, dtype=np.int64)]).astype("<i8"),
+            "level_values": np.concatenate(values).astype("<f8") if values else np.empty(0, dtype="<f8")}
 
 
 def _typed_labels(classes: NDArray) -> tuple[NDArray, bool]:
@@ -200,7 +215,12 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Any:
     names = _feature_names(header)
     classes = _classes(header, arrays, task)
     K = 0 if classes is None else classes.size
-    check_trees({k: arrays[k] for k in TREE_FIELDS}, arrays["offsets"], len(names), K)
+    levels = check_levels(arrays["level_features"], arrays["level_offsets"], arrays["level_values"], len(names),
+                          header["category_words"])
+    categories = np.zeros(len(names), dtype=np.int64)
+    for j, values in levels.items():
+        categories[j] = values.size
+    check_trees({k: arrays[k] for k in TREE_FIELDS}, arrays["offsets"], len(names), K, categories)
     weights = arrays.get("case_weights")
     if weights is not None:
         check_finite("case weights", weights)
@@ -212,6 +232,10 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Any:
         raise ModelFileError(f"the file's splitter {splitter!r} is for {splitter.task}, but its task is {task}")
     class_vector = _class_vector(header, K)
     forest = _new_forest(Forest, header, task, sampler, splitter, classes, class_vector)
+    spec = forest._settings.categorical
+    if sorted(resolve_categorical(spec, len(names), list(names))) != sorted(levels):
+        raise ModelFileError("the header's categorical setting does not match the stored category levels")
+    forest._levels, forest._categories = levels, (categories if levels else None)
     forest._trees = _trees(arrays)
     forest.inbag = arrays["inbag"]
     forest.inbag.flags.writeable = False
@@ -304,7 +328,8 @@ def _new_forest(Forest: type, header: dict, task: str, sampler: Any, splitter: A
                     sample_size=int_field(s, "sample_size", 1, "settings"),
                     replace=field(s, "replace", bool, "settings"), rng=seed, task=task,
                     workers=int_field(s, "workers", 1, "settings"),
-                    balance=field(s, "balance", (str, type(None)), "settings"), class_weights=given)
+                    balance=field(s, "balance", (str, type(None)), "settings"), class_weights=given,
+                    categorical=field(s, "categorical", (list, type(None)), "settings"))
     forest._settings = dataclasses.replace(forest._settings, sampler=sampler, splitter=splitter)
     forest._rules = GrowthRules(sampler=sampler, splitter=splitter, min_leaf=float(s["min_leaf"]),
                                 depth_limit=s["depth_limit"], sample_size=s["sample_size"], replace=s["replace"])
@@ -346,4 +371,5 @@ def _training_data(header: dict, arrays: dict, forest: Any, class_vector: NDArra
     stats = check_splitter_output(forest._rules.splitter, target)
     classes = 0 if forest.classes is None else forest.classes.size
     weights = growth_weights(forest.case_weights, class_vector, y if classes else np.zeros(0, np.int64))
-    return target, presort(np.ascontiguousarray(X), y, stats, classes, weights, y if forest.balance else None)
+    return target, presort(np.ascontiguousarray(X), y, stats, classes, forest._categories, weights,
+                           y if forest.balance else None)

@@ -16,9 +16,9 @@ import numpy as np
 __all__ = ["default_names", "is_frame", "read_table", "match_columns"]
 
 MSG_CATEGORICAL = (
-    "`{name}` has non-numeric column(s) {columns} (category, object, string or date dtype); categorical "
-    "predictors need the `categorical=` support, which forestlab does not have yet. For now, encode them as numbers, "
-    "for example one 0/1 indicator column per category"
+    "`{name}` has non-numeric column(s) {columns} (category, object, string or date dtype); forestlab reads "
+    "numbers only. Encode category labels as numbers (one number per category, NaN for a missing one) and "
+    "name those columns in `categorical=`"
 )
 
 

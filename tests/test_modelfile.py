@@ -22,7 +22,7 @@ from hypothesis import strategies as st
 import forestlab as fl
 
 NODE_ARRAYS = ("feature", "threshold", "left", "right", "value", "cases", "impurity_decrease", "depth",
-               "missing_left")
+               "missing_left", "category_left")
 
 
 def _data(n=150, p=4, seed=0):
@@ -57,6 +57,8 @@ CASES = {
     "regression": dict(labels=None, options={}),
     "regression-missing-values": dict(labels=None, options={"min_leaf": 2}, gaps=True),
     "str-missing-values": dict(labels="str", options={}, gaps=True),
+    "int-categorical-balance": dict(labels="int", options={"categorical": [3], "balance": "classes"}, gaps=True),
+    "regression-categorical-weights": dict(labels=None, options={"categorical": [3]}, weights=True),
     "regression-weights-bagging": dict(labels=None, options={"sampler": fl.AllFeatures(), "min_leaf": 3},
                                        weights=True),
 }
@@ -67,8 +69,9 @@ def _fit(case, seed=3):
     y = score if case["labels"] is None else _labels(case["labels"], score)
     w = np.random.default_rng(1).uniform(0.2, 3, size=len(y)) if case.get("weights") else None
     w = None if w is None else (np.round(w) + 1 if case["labels"] == "int" else w)
+    X = X.copy()
+    X[:, 3] = np.random.default_rng(6).integers(0, 80, size=len(X))   # codes, categorical in some cases
     if case.get("gaps"):
-        X = X.copy()
         X[np.random.default_rng(2).random(X.shape) < 0.15] = np.nan
     return fl.Forest(trees=12, rng=seed, **case["options"]).fit(X, y, weights=w), X
 
@@ -115,6 +118,7 @@ class TestRoundTrip:
         _assert_same_forest(forest, loaded)
         fresh = np.random.default_rng(9).normal(size=(60, X.shape[1])) * 2
         fresh[::7, 1] = np.nan
+        fresh[:, 3] = np.random.default_rng(8).integers(0, 90, size=len(fresh))   # some categories unseen
         np.testing.assert_array_equal(loaded.per_tree(fresh), forest.per_tree(fresh))
         np.testing.assert_array_equal(loaded.predict(fresh), forest.predict(fresh))
         if forest.task == "classification":
@@ -253,7 +257,8 @@ def _load_bytes(blob):
 
 def _small_file(include_data=True):
     X, score = _data(n=40, p=3, seed=5)
-    forest = fl.Forest(trees=3, depth_limit=3, rng=8).fit(X, _labels("str", score),
+    X[:, 2] = np.arange(40) % 5    # a categorical feature with five categories
+    forest = fl.Forest(trees=3, depth_limit=3, rng=8, categorical=[2]).fit(X, _labels("str", score),
                                                           weights=np.linspace(0.5, 2, 40))
     with tempfile.TemporaryDirectory() as folder:
         path = os.path.join(folder, "m.npz")
@@ -315,6 +320,14 @@ def _crafted(kind):
         header["seed"]["entropy"] = -1
     elif kind == "sampler":
         header["sampler"]["attributes"] = {"m": "all"}
+    elif kind == "category-set":
+        numeric = int(np.flatnonzero((arrays["feature"] >= 0) & (arrays["feature"] != 2))[0])
+        arrays["category_left"][numeric, 0] = 5
+    elif kind == "levels":
+        arrays["level_values"][[0, 1]] = arrays["level_values"][[1, 0]]
+    elif kind == "words":
+        header["category_words"] = 2
+        arrays["category_left"] = np.zeros((arrays["feature"].size, 2), dtype=np.uint64)
     elif kind == "nested":
         header["settings"] = json.loads("[" * 50 + "]" * 50)
     return _pack(header, arrays, raw=raw, compress=kind == "compressed")
@@ -330,6 +343,8 @@ CRAFTED = {
     "missing": r"differ from those its header implies", "fingerprint": r"do not match their fingerprint",
     "entropy": r"seed must hold", "sampler": r"RandomSubset has invalid attributes",
     "nested": r"'settings' has the wrong type", "compressed": r"not a plain stored \.npy array",
+    "category-set": r"does not split a categorical feature has a category set",
+    "levels": r"strictly increasing", "words": r"category set width",
 }
 
 
@@ -365,7 +380,8 @@ def _outcome_is_clean(blob):
 
 
 MUTABLE = ("feature", "threshold", "left", "right", "value", "cases", "decrease", "depth", "missing_left",
-           "offsets", "inbag", "y", "case_weights")
+           "category_left", "level_features", "level_offsets", "level_values", "offsets", "inbag", "y",
+           "case_weights")
 
 
 class TestLoaderFuzz:

@@ -10,7 +10,7 @@ from hypothesis import strategies as st
 import forestlab as fl
 
 NODE_ARRAYS = ("feature", "threshold", "left", "right", "value", "cases", "impurity_decrease", "depth",
-               "missing_left")
+               "missing_left", "category_left")
 
 
 def _problem(n=120, p=3, seed=0):
@@ -43,6 +43,10 @@ class TestFrames:
         coloured = df.assign(colour=pd.Categorical(["red", "blue"] * 60), note=["x"] * 120)
         with pytest.raises(TypeError, match=r"non-numeric column\(s\) \['colour', 'note'\].*`categorical=`"):
             fl.Forest(trees=2).fit(coloured, y)
+        # encoded as numbers, a category column is named in `categorical=` (matched to the frame's names)
+        codes = coloured.assign(colour=coloured["colour"].cat.codes.astype(float)).drop(columns="note")
+        forest = fl.Forest(trees=3, rng=0, categorical=["colour"]).fit(codes, y)
+        assert list(forest._levels) == [3] and forest.feature_names[3] == "colour"
         forest = fl.Forest(trees=3, rng=0).fit(df, y)
         with pytest.raises(ValueError, match=r"3 features seen in fit; missing \['c'\]$"):
             forest.predict(df[["a", "b"]])
@@ -79,7 +83,8 @@ class TestFrames:
 def _trees_equal(a, b, exact=True):
     for name in NODE_ARRAYS:
         x, z = getattr(a, name), getattr(b, name)
-        if exact or name in ("feature", "threshold", "left", "right", "depth", "cases", "missing_left"):
+        if exact or name in ("feature", "threshold", "left", "right", "depth", "cases", "missing_left",
+                                  "category_left"):
             np.testing.assert_array_equal(x, z, err_msg=name)
         else:
             np.testing.assert_allclose(x, z, rtol=1e-9, atol=1e-9, err_msg=name)
