@@ -11,12 +11,12 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from . import _dependence, _importance, _proximity
-from ._categorical import apply_levels, encode_columns
 from ._bootstrap import balanced_sample_size
+from ._categorical import apply_levels, encode_columns
 from ._dependence import Dependence
 from ._grow import GrowthRules, grow_batch
 from ._importance import Importance
-from ._persist import growth_blocker, save_forest
+from ._persist import MSG_NO_DATA, growth_blocker, save_forest
 from ._presort import TrainingData, presort
 from ._proximity import ProximityMap
 from ._sampler import CandidateSampler
@@ -38,10 +38,6 @@ _DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, 
              "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None,
              "balance": None, "class_weights": None}
 
-MSG_NO_DATA = (
-    "this forest was loaded from a file without its training data, so it can predict but not grow trees or "
-    "compute out-of-bag results; save it with `save(path, include_data=True)` to keep the data"
-)
 
 
 class Forest:

@@ -28,7 +28,12 @@ from ._validation import Target, check_splitter_output, resolve_categorical
 from ._warnings import IncompleteForestWarning
 from ._weights import growth_weights
 
-__all__ = ["StoredComponent", "growth_blocker", "load", "save_forest"]
+__all__ = ["MSG_NO_DATA", "StoredComponent", "growth_blocker", "load", "require_data", "save_forest"]
+
+MSG_NO_DATA = (
+    "this forest was loaded from a file without its training data, so it can predict but not grow trees or "
+    "compute out-of-bag results; save it with `save(path, include_data=True)` to keep the data"
+)
 
 BUILTIN = {"sampler": {c.__name__: c for c in (AllFeatures, RandomSubset, TreeSubspace)},
            "splitter": {c.__name__: c for c in (EntropySplitter, GiniSplitter, SquaredErrorSplitter)}}
@@ -61,6 +66,12 @@ class StoredComponent:
     name: str
     module: str
     attributes: dict
+
+
+def require_data(forest: Any) -> None:
+    """Raise a RuntimeError when ``forest`` holds no training data (loaded from a file without it)."""
+    if getattr(forest, "_data", None) is None:
+        raise RuntimeError(MSG_NO_DATA)
 
 
 def growth_blocker(forest: Any) -> str | None:

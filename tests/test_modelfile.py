@@ -168,6 +168,21 @@ class TestRoundTrip:
             mixed.save(os.path.join(folder, "m.npz"))
 
 
+class TestAnalysesAfterLoad:
+    def test_analyses_need_data_only_for_training_cases(self):
+        # Analyses of held-out cases read only the trees; those of the training cases need the stored data.
+        forest, X = _fit(CASES["int-categorical-balance"])
+        y = _labels("int", _data()[1])
+        bare, full = _save_load(forest), _save_load(forest, include_data=True)
+        with pytest.raises(RuntimeError, match=r"loaded from a file without its training data"):
+            bare.importance()
+        held_out = bare.importance(X=X, y=y, rng=1)
+        np.testing.assert_array_equal(held_out.per_tree, forest.importance(X=X, y=y, rng=1).per_tree)
+        np.testing.assert_array_equal(full.importance(rng=2).per_tree, forest.importance(rng=2).per_tree)
+        np.testing.assert_array_equal(full.proximity(oob=False), forest.proximity(oob=False))
+        np.testing.assert_array_equal(bare.proximity(oob=False, X=X[:30]), forest.proximity(oob=False, X=X[:30]))
+
+
 class PoissonLike(fl.CartSplitter):
     """A custom criterion (squared error on log1p scale statistics) used to test custom-component handling."""
 
