@@ -4,6 +4,9 @@ from ._crossval import cross_validated_error as cross_validated_error
 from ._dependence import Dependence as Dependence
 from ._forest import Forest as Forest
 from ._importance import Importance as Importance
+from ._modelcheck import ModelFileError as ModelFileError
+from ._persist import StoredComponent as StoredComponent
+from ._persist import load as load
 from ._proximity import ProximityMap as ProximityMap
 from ._proximity import classical_scaling as classical_scaling
 from ._results import CrossValidatedError as CrossValidatedError
@@ -19,6 +22,7 @@ from ._splitter import GiniSplitter as GiniSplitter
 from ._splitter import SquaredErrorSplitter as SquaredErrorSplitter
 from ._tree import Tree as Tree
 from ._warnings import ForestlabWarning as ForestlabWarning
+from ._warnings import IncompleteForestWarning as IncompleteForestWarning
 from ._warnings import NeverOutOfBagWarning as NeverOutOfBagWarning
 from ._warnings import OverlapWarning as OverlapWarning
 from ._warnings import SingleClassWarning as SingleClassWarning
@@ -37,6 +41,8 @@ __all__ = [
     "ForestlabWarning",
     "GiniSplitter",
     "Importance",
+    "IncompleteForestWarning",
+    "ModelFileError",
     "NeverOutOfBagWarning",
     "OutOfBag",
     "OverlapWarning",
@@ -44,8 +50,10 @@ __all__ = [
     "RandomSubset",
     "SingleClassWarning",
     "SquaredErrorSplitter",
+    "StoredComponent",
     "Tree",
     "TreeSubspace",
     "classical_scaling",
     "cross_validated_error",
+    "load",
 ]

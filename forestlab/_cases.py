@@ -8,6 +8,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
+from ._persist import require_data
 from ._tree import leaf_index
 from ._validation import check_y
 
@@ -22,6 +23,7 @@ def analysis_X(forest: Any, X: Any) -> tuple[NDArray[np.float64], bool]:
     themselves; the flag says which."""
     forest._check_fitted()
     if X is None:
+        require_data(forest)
         return forest._data.X, True
     return forest._check_predict_X(X), False
 
@@ -41,7 +43,7 @@ def leaves(forest: Any, X: NDArray[np.float64]) -> NDArray[np.int64]:
     """Leaf reached by every case in every tree: shape (trees, n)."""
     out = np.empty((len(forest._trees), X.shape[0]), dtype=np.int64)
     for b, tree in enumerate(forest._trees):
-        out[b] = leaf_index(tree, X, forest._data.categories)
+        out[b] = leaf_index(tree, X, forest._categories)
     return out
 
 
@@ -61,6 +63,6 @@ def mean_prediction(forest: Any, X: NDArray[np.float64], label: int | None) -> N
     for rows in row_blocks(X.shape[0], X.shape[1]):
         block = X[rows]
         for tree in forest._trees:
-            value = tree.value[leaf_index(tree, block, forest._data.categories)]
+            value = tree.value[leaf_index(tree, block, forest._categories)]
             out[rows] += value if label is None else (value == label)
     return out / len(forest._trees)

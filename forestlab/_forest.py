@@ -5,27 +5,32 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 import dataclasses
+from os import PathLike
 from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from . import _dependence, _importance, _proximity
+from ._bootstrap import balanced_sample_size
 from ._categorical import apply_levels, encode_columns
 from ._dependence import Dependence
 from ._fingerprint import check_same_data, data_fingerprint
 from ._grow import GrowthRules, grow_batch
 from ._importance import Importance
 from ._oob import out_of_bag
+from ._persist import MSG_NO_DATA, growth_blocker, save_forest
 from ._presort import TrainingData, presort
 from ._proximity import ProximityMap
 from ._results import OutOfBag
 from ._sampler import CandidateSampler
 from ._seeding import check_rng, root_seed, tree_seed
 from ._splitter import CartSplitter, GiniSplitter, SquaredErrorSplitter
+from ._tabular import default_names, match_columns, read_table
 from ._tree import Tree, leaf_index
 from ._validation import (Settings, Target, _int_at_least, check_settings, check_splitter_output, check_X,
                           check_y, resolve_categorical)
+from ._weights import check_weights, class_weight_vector, growth_weights
 
 __all__ = ["Forest"]
 
@@ -34,7 +39,9 @@ BATCH_ITEMS = 65_536
 MAX_BATCH = 64
 
 _DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "depth_limit": None,
-             "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None}
+             "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None,
+             "balance": None, "class_weights": None}
+
 
 
 class Forest:
@@ -56,12 +63,14 @@ class Forest:
     splitter : CartSplitter, {"gini", "entropy", "squared_error"} or None
         Split criterion. None is Gini for classification and squared error for regression.
     min_leaf : float or None
-        Smallest leaf, in bootstrap-weighted cases; each child of a split must weigh at least this.
-        None is 1 for classification and 5 for regression (common practice).
+        Smallest leaf, in weighted cases (bootstrap count times case weight times class weight); each child
+        of a split must weigh at least this. None is 1 for classification and 5 for regression (common
+        practice).
     depth_limit : int or None
         Largest depth of a node (the root has depth 0); None grows until nodes are pure or too light.
     sample_size : int, float or None
-        Cases drawn per tree: an int, a fraction of ``n``, or None for ``n``.
+        Cases drawn per tree: an int, a fraction of ``n``, or None for ``n`` (with ``balance="classes"``:
+        ``K`` times the smallest class size, rounded down to a multiple of the ``K`` classes).
     replace : bool, default True
         Draw with replacement (the bootstrap) or without (subsampling).
     rng : None, int, numpy.random.SeedSequence or numpy.random.Generator
@@ -78,6 +87,13 @@ class Forest:
         regression (Breiman et al. 1984, section 9.4) and by the principal-component ordering of Coppersmith,
         Hong & Hosking (1999) for more classes. Any real values serve as labels (NaN is missing); a category
         not seen where a split was learned goes where that split sends missing values.
+    balance : {"classes"} or None
+        ``"classes"`` draws each tree's sample stratified, the same number of cases from every class (the
+        balanced random forest of Chen, Liaw & Breiman 2004, "Using random forest to learn imbalanced data").
+    class_weights : dict, "balanced" or None
+        Weight of each class in every sum of the splitter (split scores, ``min_leaf``, leaf values),
+        multiplied into the case weights: a dict label -> positive weight (unlisted classes weigh 1), or
+        ``"balanced"`` for ``n / (K * n_k)`` with ``n_k`` the cases of class ``k``.
 
     Attributes
     ----------
@@ -90,6 +106,11 @@ class Forest:
         ``"classification"`` or ``"regression"`` (after fit).
     features : int
         Number of features seen in fit.
+    feature_names : tuple of str
+        Column names of the data frame seen in fit, or ``("x0", ..., "x{p-1}")`` for an array. A data frame
+        given at prediction is matched to them by column name; an array by position.
+    case_weights : ndarray of float64, shape (n,), or None
+        The ``weights`` given to :meth:`fit` (read-only), None when none were given.
     seed : numpy.random.SeedSequence
         Root seed; tree ``b`` is grown from ``SeedSequence(seed.entropy, spawn_key=seed.spawn_key + (b,))``.
     oob : OutOfBag
@@ -115,15 +136,18 @@ class Forest:
     classes: NDArray | None
     task: str
     features: int
+    feature_names: tuple[str, ...]
+    case_weights: NDArray[np.float64] | None
     seed: np.random.SeedSequence
 
     def __init__(self, trees: int = 500, *, sampler: CandidateSampler | int | float | str | None = None,
                  splitter: CartSplitter | str | None = None, min_leaf: float | None = None,
                  depth_limit: int | None = None, sample_size: int | float | None = None, replace: bool = True,
                  rng: Any = None, task: str | None = None, workers: int = 1,
-                 categorical: Sequence[int | str] | None = None) -> None:
+                 categorical: Sequence[int | str] | None = None, balance: str | None = None,
+                 class_weights: dict | str | None = None) -> None:
         self._settings: Settings = check_settings(trees, sampler, splitter, min_leaf, depth_limit, sample_size,
-                                                  replace, task, workers, categorical)
+                                                  replace, task, workers, categorical, balance, class_weights)
         check_rng(rng)
         self._rng = rng
         self._trees: list[Tree] = []
@@ -166,6 +190,16 @@ class Forest:
         return self._settings.replace
 
     @property
+    def balance(self) -> str | None:
+        """How each tree's sample is drawn: None (plain bootstrap) or ``"classes"`` (class-balanced)."""
+        return self._settings.balance
+
+    @property
+    def class_weights(self) -> dict | str | None:
+        """The class weights setting; after fit, a dict label -> weight of every class (None if not set)."""
+        return self._class_weights if self.fitted else self._settings.class_weights
+
+    @property
     def fitted(self) -> bool:
         """True once :meth:`fit` has run."""
         return bool(self._trees)
@@ -175,36 +209,53 @@ class Forest:
                  "splitter": self._settings.splitter, "min_leaf": self._settings.min_leaf,
                  "depth_limit": self._settings.depth_limit, "sample_size": self._settings.sample_size,
                  "replace": self._settings.replace, "rng": self._rng, "task": self._settings.task,
-                 "workers": self._settings.workers, "categorical": self._settings.categorical}
+                 "workers": self._settings.workers, "categorical": self._settings.categorical,
+                 "balance": self._settings.balance, "class_weights": self._settings.class_weights}
         if repr(given["sampler"]) == "RandomSubset(None)":
             given["sampler"] = None
         shown = [f"{k}={v!r}" for k, v in given.items() if v is not _DEFAULTS[k] and v != _DEFAULTS[k]]
         return f"Forest({', '.join(shown)})"
 
     # ----------------------------------------------------------------------------------------- fitting
-    def fit(self, X: ArrayLike, y: ArrayLike) -> Forest:
+    def fit(self, X: ArrayLike, y: ArrayLike, weights: ArrayLike | None = None) -> Forest:
         """Grow the forest on predictors ``X`` (n, p) and targets ``y`` (n,); returns the forest.
 
-        Refitting replaces every tree.
+        ``X`` is an array or a data frame of numeric columns (its column names become
+        :attr:`feature_names`). ``weights`` (n,) are optional case weights, finite and positive: a case
+        drawn ``c`` times weighs ``c * weight`` in every split score, in ``min_leaf`` and in the leaf values;
+        :attr:`inbag` keeps the unweighted draw counts. Zero weights are not accepted yet; drop those rows
+        instead. Refitting replaces every tree.
         """
-        X = check_X(X)
+        values, names = read_table(X)
+        X = check_X(values)
         if X.shape[0] < 2:
             raise ValueError(f"`X` must have at least 2 rows to grow a tree; got {X.shape[0]}")
         target = check_y(y, X.shape[0], self._task_for())
         fingerprint = data_fingerprint(X, target)
+        case_weights = check_weights(weights, X.shape[0])
+        self._check_class_options(target)
         rules = self._resolve_rules(target, X.shape)
         stats = check_splitter_output(rules.splitter, target)
-        columns = resolve_categorical(self._settings.categorical, X.shape[1])
+        columns = resolve_categorical(self._settings.categorical, X.shape[1],
+                                      None if names is None else list(names))
         X, self._levels = encode_columns(X, columns)
         categories = np.zeros(X.shape[1], dtype=np.int64)
         for j, values in self._levels.items():
             categories[j] = values.size
-        self._data = presort(X, target.values, stats, 0 if target.classes is None else target.classes.size,
-                             categories)
+        classes = 0 if target.classes is None else target.classes.size
+        class_vector = self._class_vector(target)
+        self._data = presort(X, target.values, stats, classes, categories,
+                             growth_weights(case_weights, class_vector, target.values),
+                             target.values if self._settings.balance else None)
+        self._categories = self._data.categories
         self._rules = rules
         self.task = target.task
         self.classes = target.classes
         self.features = X.shape[1]
+        self.feature_names = names if names is not None else default_names(X.shape[1])
+        self.case_weights = case_weights
+        self._class_weights = None if class_vector is None else dict(zip(target.classes.tolist(),
+                                                                         class_vector.tolist()))
         self._target = target
         self.seed = root_seed(self._rng)
         self._fingerprint = fingerprint
@@ -257,6 +308,15 @@ class Forest:
             return s.task
         return s.splitter.task if s.splitter is not None else None
 
+    def _check_class_options(self, target: Target) -> None:
+        s = self._settings
+        if target.task == "regression" and (s.balance is not None or s.class_weights is not None):
+            raise ValueError("`balance` and `class_weights` are for classification, but the task is regression")
+
+    def _class_vector(self, target: Target) -> NDArray[np.float64] | None:
+        spec = self._settings.class_weights
+        return None if spec is None else class_weight_vector(spec, target.classes, target.values)
+
     def _resolve_rules(self, target: Target, shape: tuple[int, int]) -> GrowthRules:
         s = self._settings
         n, p = shape
@@ -267,6 +327,8 @@ class Forest:
             raise ValueError(f"`splitter` {splitter!r} is for {splitter.task}, but the task is {target.task}")
         min_leaf = s.min_leaf if s.min_leaf is not None else (1.0 if target.task == "classification" else 5.0)
         size = s.sample_size
+        if s.balance is not None:
+            size = balanced_sample_size(size, target.values, s.replace)
         size = n if size is None else (max(1, math.floor(size * n)) if isinstance(size, float) else size)
         if not s.replace and size > n:
             raise ValueError(f"`sample_size` = {size} exceeds the {n} cases available without replacement")
@@ -280,11 +342,17 @@ class Forest:
         trees: list[Tree] = []
         counts: list[NDArray[np.uint8]] = []
         for start in range(0, len(ids), batch):
-            seeds = [tree_seed(self.seed, b) for b in ids[start:start + batch]]
-            grown, inbag = grow_batch(self._data, self._rules, seeds)
-            trees += grown
-            counts.append(inbag)
+            trees += self._grow_checked(ids[start:start + batch], counts)
         return trees, np.concatenate(counts)
+
+    def _grow_checked(self, ids: list[int], counts: list[NDArray[np.uint8]]) -> list[Tree]:
+        """``grow_batch`` for the given trees (their in-bag counts appended to ``counts``)."""
+        blocker = growth_blocker(self)
+        if blocker is not None or self._data is None:
+            raise RuntimeError(blocker or MSG_NO_DATA)
+        grown, inbag = grow_batch(self._data, self._rules, [tree_seed(self.seed, b) for b in ids])
+        counts.append(inbag)
+        return grown
 
     # ----------------------------------------------------------------------------------------- out-of-bag
     @property
@@ -313,8 +381,7 @@ class Forest:
         """Grow tree ``b`` again, alone, from its own seed and the training data; equals :meth:`tree`."""
         self.tree(b)
         b = b % len(self._trees)
-        grown, _ = grow_batch(self._data, self._rules, [tree_seed(self.seed, b)])
-        return grown[0]
+        return self._grow_checked([b], [])[0]
 
     # ----------------------------------------------------------------------------------------- prediction
     def per_tree(self, X: ArrayLike) -> NDArray:
@@ -325,7 +392,7 @@ class Forest:
         X = self._check_predict_X(X)
         out = np.empty((len(self._trees), X.shape[0]))
         for b, tree in enumerate(self._trees):
-            out[b] = tree.value[leaf_index(tree, X, self._data.categories)]
+            out[b] = tree.value[leaf_index(tree, X, self._categories)]
         return out.astype(np.int64) if self.task == "classification" else out
 
     def votes(self, X: ArrayLike) -> NDArray[np.float64]:
@@ -411,7 +478,20 @@ class Forest:
 
     def _check_predict_X(self, X: ArrayLike) -> NDArray[np.float64]:
         self._check_fitted()
-        return apply_levels(check_X(X, features=self.features), self._levels)
+        return apply_levels(check_X(match_columns(X, self.feature_names), features=self.features),
+                            self._levels)
+
+    # ----------------------------------------------------------------------------------------- files
+    def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
+        """Write the fitted forest to ``path`` (one ``.npz`` file; see docs/file-format.md).
+
+        The write is atomic: a temporary file in the same folder replaces ``path`` only when complete.
+        ``include_data=True`` also stores ``X``, ``y`` and the case weights, which a loaded forest needs to
+        grow more trees or compute out-of-bag results; without them it still predicts. Read it back with
+        :func:`forestlab.load`.
+        """
+        self._check_fitted()
+        save_forest(self, path, include_data=include_data)
 
 
 def _vote_shares(per_tree: NDArray[np.int64], classes: int) -> NDArray[np.float64]:

@@ -57,7 +57,7 @@ def grow_batch(data: TrainingData, rules: GrowthRules,
     """
     gens = [np.random.default_rng(s) for s in seeds]
     n = data.rows
-    counts = np.stack([draw_counts(g, n, rules.sample_size, rules.replace) for g in gens])
+    counts = np.stack([draw_counts(g, n, rules.sample_size, rules.replace, data.strata) for g in gens])
     subspace = _tree_masks(rules.sampler, gens, data.features)
     batch = _Batch.weighted(data, counts)
     rows = [np.flatnonzero(c) for c in counts]

@@ -188,7 +188,7 @@ def _permutation_rises(forest: Any, X: NDArray, y: NDArray, oob: NDArray | None,
         generator = tree_generator(root, b)
         perms = [generator.permutation(rows.size) for _ in columns]
         out[b] = _tree_rises(tree, X[rows], y[rows], columns, perms, forest.task == "classification",
-                             forest._data.categories)
+                             forest._categories)
     return out
 
 

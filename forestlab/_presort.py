@@ -29,7 +29,8 @@ class TrainingData:
     target : ndarray, shape (n,)
         Class indices (int64) or float64 targets.
     stats : ndarray of float64, shape (n, 1 + s)
-        Column 0 is 1 (the weight channel); columns 1.. the splitter's statistics.
+        Column 0 is the case weight (1 without weights); columns 1.. the splitter's statistics times the
+        case weight, so ``counts x stats`` weighs every case by bootstrap count times case weight.
     classes : int
         Number of classes, 0 for regression.
     missing : bool
@@ -37,6 +38,10 @@ class TrainingData:
     categories : ndarray of int64, shape (p,)
         Number of categories of each categorical feature (whose column holds codes ``0..k-1``), 0 for
         numeric features.
+    weights : ndarray of float64, shape (n,), or None
+        The case weights multiplied into ``stats`` (case weights times class weights), None when all are 1.
+    strata : ndarray of int64, shape (n,), or None
+        Class index of every case when each tree's bootstrap sample is drawn class-balanced, else None.
     """
 
     X: NDArray[np.float64]
@@ -48,6 +53,8 @@ class TrainingData:
     classes: int
     missing: bool = False
     categories: NDArray[np.int64] | None = None
+    weights: NDArray[np.float64] | None = None
+    strata: NDArray[np.int64] | None = None
 
     @property
     def category_words(self) -> int:
@@ -64,8 +71,12 @@ class TrainingData:
 
 
 def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.float64], classes: int,
-            categories: NDArray[np.int64] | None = None) -> TrainingData:
-    """Sort every feature once and pack the per-case statistics with a weight channel."""
+            categories: NDArray[np.int64] | None = None, weights: NDArray[np.float64] | None = None,
+            strata: NDArray[np.int64] | None = None) -> TrainingData:
+    """Sort every feature once and pack the per-case statistics with a weight channel.
+
+    With ``weights``, channel 0 becomes the case weight and the statistics are multiplied by it.
+    """
     n, p = X.shape
     order = np.ascontiguousarray(np.argsort(X, axis=0, kind="stable").T.astype(np.int32))
     sorted_x = np.ascontiguousarray(np.take_along_axis(X, order.T, axis=0).T)
@@ -74,7 +85,10 @@ def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.floa
     stats = np.empty((n, 1 + statistics.shape[1]))
     stats[:, 0] = 1.0
     stats[:, 1:] = statistics
+    if weights is not None:
+        stats *= weights[:, None]
     return TrainingData(X=X, order=order, sorted_x=sorted_x, rank=np.ascontiguousarray(rank_t.T),
                         target=target, stats=stats, classes=classes,
                         missing=bool(np.isnan(sorted_x[:, -1]).any()),
-                        categories=None if categories is None or not np.any(categories) else categories)
+                        categories=None if categories is None or not np.any(categories) else categories,
+                        weights=weights, strata=strata)

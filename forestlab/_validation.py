@@ -16,6 +16,7 @@ from numpy.typing import NDArray
 from ._sampler import CandidateSampler, RandomSubset, _check_size
 from ._splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from ._warnings import SingleClassWarning
+from ._weights import check_balance, check_class_weights
 
 __all__ = ["Settings", "check_settings", "check_X", "check_y", "Target", "check_splitter_output",
            "resolve_categorical"]
@@ -37,6 +38,8 @@ class Settings:
     task: str | None
     workers: int
     categorical: tuple[int | str, ...] | None = None
+    balance: str | None = None
+    class_weights: dict | str | None = None
 
 
 def _int_at_least(value: Any, name: str, low: int) -> int:
@@ -143,7 +146,8 @@ def resolve_categorical(spec: tuple[int | str, ...] | None, features: int,
 
 
 def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth_limit: Any,
-                   sample_size: Any, replace: Any, task: Any, workers: Any, categorical: Any = None) -> Settings:
+                   sample_size: Any, replace: Any, task: Any, workers: Any, categorical: Any = None,
+                   balance: Any = None, class_weights: Any = None) -> Settings:
     """Validate the Forest constructor arguments."""
     if task is not None and task not in TASKS:
         raise ValueError(f"`task` must be one of {sorted(TASKS)} or None; got {task!r}")
@@ -160,7 +164,11 @@ def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth
         task=task,
         workers=_int_at_least(workers, "workers", 1),
         categorical=_check_categorical(categorical),
+        balance=check_balance(balance),
+        class_weights=check_class_weights(class_weights),
     )
+    if task == "regression" and (settings.balance is not None or settings.class_weights is not None):
+        raise ValueError("`balance` and `class_weights` are for classification, but `task` is 'regression'")
     if settings.splitter is not None and task is not None and settings.splitter.task != task:
         raise ValueError(f"`splitter` {settings.splitter!r} is for {settings.splitter.task}, but `task` is {task!r}")
     return settings

@@ -6,7 +6,7 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 
 from __future__ import annotations
 
-__all__ = ["ForestlabWarning", "NeverOutOfBagWarning", "OverlapWarning", "SingleClassWarning"]
+__all__ = ["ForestlabWarning", "IncompleteForestWarning", "NeverOutOfBagWarning", "OverlapWarning", "SingleClassWarning"]
 
 
 class ForestlabWarning(UserWarning):
@@ -26,3 +26,5 @@ class NeverOutOfBagWarning(ForestlabWarning):
 
     The case gets NaN (or no label) and is left out of the out-of-bag error; more trees usually cover it.
     """
+class IncompleteForestWarning(ForestlabWarning):
+    """A loaded forest names a custom sampler or splitter that was not supplied: it predicts but cannot grow."""
