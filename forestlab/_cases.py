@@ -43,7 +43,7 @@ def leaves(forest: Any, X: NDArray[np.float64]) -> NDArray[np.int64]:
     """Leaf reached by every case in every tree: shape (trees, n)."""
     out = np.empty((len(forest._trees), X.shape[0]), dtype=np.int64)
     for b, tree in enumerate(forest._trees):
-        out[b] = leaf_index(tree, X, forest._categories)
+        out[b] = leaf_index(tree, X)
     return out
 
 
@@ -63,6 +63,6 @@ def mean_prediction(forest: Any, X: NDArray[np.float64], label: int | None) -> N
     for rows in row_blocks(X.shape[0], X.shape[1]):
         block = X[rows]
         for tree in forest._trees:
-            value = tree.value[leaf_index(tree, block, forest._categories)]
+            value = tree.value[leaf_index(tree, block)]
             out[rows] += value if label is None else (value == label)
     return out / len(forest._trees)

@@ -151,6 +151,7 @@ class Forest:
         check_rng(rng)
         self._rng = rng
         self._trees: list[Tree] = []
+        self._frame_labels: dict[str, tuple] = {}
         self._oob: OutOfBag | None = None
 
     # ----------------------------------------------------------------------------------------- settings
@@ -226,7 +227,7 @@ class Forest:
         :attr:`inbag` keeps the unweighted draw counts. Zero weights are not accepted yet; drop those rows
         instead. Refitting replaces every tree.
         """
-        values, names = read_table(X)
+        values, names, labels = read_table(X)
         X = check_X(values)
         if X.shape[0] < 2:
             raise ValueError(f"`X` must have at least 2 rows to grow a tree; got {X.shape[0]}")
@@ -237,7 +238,7 @@ class Forest:
         rules = self._resolve_rules(target, X.shape)
         stats = check_splitter_output(rules.splitter, target)
         columns = resolve_categorical(self._settings.categorical, X.shape[1],
-                                      None if names is None else list(names))
+                                      None if names is None else list(names), frame=labels)
         X, self._levels = encode_columns(X, columns)
         categories = np.zeros(X.shape[1], dtype=np.int64)
         for j, values in self._levels.items():
@@ -253,6 +254,7 @@ class Forest:
         self.classes = target.classes
         self.features = X.shape[1]
         self.feature_names = names if names is not None else default_names(X.shape[1])
+        self._frame_labels = labels
         self.case_weights = case_weights
         self._class_weights = None if class_vector is None else dict(zip(target.classes.tolist(),
                                                                          class_vector.tolist()))
@@ -281,7 +283,7 @@ class Forest:
         """
         self._check_fitted()
         more = _int_at_least(trees, "trees", 1)
-        X = check_X(X, features=self.features)
+        X = check_X(match_columns(X, self.feature_names, labels=self._frame_labels), features=self.features)
         target = check_y(y, X.shape[0], self.task)
         check_same_data(self._fingerprint, self._data.X.shape, X, target)
         first = len(self._trees)
@@ -392,7 +394,7 @@ class Forest:
         X = self._check_predict_X(X)
         out = np.empty((len(self._trees), X.shape[0]))
         for b, tree in enumerate(self._trees):
-            out[b] = tree.value[leaf_index(tree, X, self._categories)]
+            out[b] = tree.value[leaf_index(tree, X)]
         return out.astype(np.int64) if self.task == "classification" else out
 
     def votes(self, X: ArrayLike) -> NDArray[np.float64]:
@@ -478,8 +480,8 @@ class Forest:
 
     def _check_predict_X(self, X: ArrayLike) -> NDArray[np.float64]:
         self._check_fitted()
-        return apply_levels(check_X(match_columns(X, self.feature_names), features=self.features),
-                            self._levels)
+        return apply_levels(check_X(match_columns(X, self.feature_names, labels=self._frame_labels),
+                                    features=self.features), self._levels)
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:

@@ -189,7 +189,7 @@ def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
     keep = np.flatnonzero(splits.found[items.node])
     row, node = items.row[keep], items.node[keep]
     go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
-                          splits.category_left, data.categories, data.missing)
+                          splits.category_left, data.missing)
     child_rank = np.cumsum(splits.found) - 1
     return Items(row, 2 * child_rank[node] + go_right)
 

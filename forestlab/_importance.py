@@ -187,16 +187,15 @@ def _permutation_rises(forest: Any, X: NDArray, y: NDArray, oob: NDArray | None,
             continue
         generator = tree_generator(root, b)
         perms = [generator.permutation(rows.size) for _ in columns]
-        out[b] = _tree_rises(tree, X[rows], y[rows], columns, perms, forest.task == "classification",
-                             forest._categories)
+        out[b] = _tree_rises(tree, X[rows], y[rows], columns, perms, forest.task == "classification")
     return out
 
 
 def _tree_rises(tree: Tree, X: NDArray, y: NDArray, columns: tuple[tuple[int, ...], ...],
-                perms: list[NDArray], classification: bool, categories: NDArray | None) -> NDArray:
+                perms: list[NDArray], classification: bool) -> NDArray:
     """One tree's error rise for every entry: all shuffled copies stacked and pushed down together."""
     used = set(tree.feature[tree.feature >= 0].tolist())
-    base = _error(tree.value[leaf_index(tree, X, categories)], y, classification)
+    base = _error(tree.value[leaf_index(tree, X)], y, classification)
     rises = np.zeros(len(columns))
     todo = [k for k, cols in enumerate(columns) if used.intersection(cols)]
     m = X.shape[0]
@@ -207,7 +206,7 @@ def _tree_rises(tree: Tree, X: NDArray, y: NDArray, columns: tuple[tuple[int, ..
         for i, k in enumerate(chunk):
             cols = list(columns[k])
             stacked[i * m:(i + 1) * m, cols] = X[perms[k]][:, cols]
-        values = tree.value[leaf_index(tree, stacked, categories)].reshape(len(chunk), m)
+        values = tree.value[leaf_index(tree, stacked)].reshape(len(chunk), m)
         rises[chunk] = _error(values, y, classification) - base
     return rises
 

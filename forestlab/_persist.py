@@ -136,7 +136,19 @@ def _header(forest: Any, labels: dict | None, include_data: bool, arrays: dict) 
         "seed": {"entropy": _seed_words(seed.entropy), "spawn_key": [int(k) for k in seed.spawn_key],
                  "pool_size": int(seed.pool_size)},
         "fingerprint": fingerprint, "has_data": include_data, "has_case_weights": "case_weights" in arrays,
+        "frame_categories": _frame_categories(getattr(forest, "_frame_labels", {})),
     }
+
+
+def _frame_categories(labels: dict[str, tuple]) -> dict[str, list]:
+    """The category labels of data-frame columns seen in fit, as JSON (str, int, float or bool labels)."""
+    out = {}
+    for name, known in labels.items():
+        values = [v.item() if isinstance(v, np.generic) else v for v in known]
+        if not all(isinstance(v, (str, int, float, bool)) for v in values):
+            raise TypeError(f"the category labels of column {name!r} must be str, int, float or bool to be saved")
+        out[name] = values
+    return out
 
 
 def _level_arrays(levels: dict[int, NDArray]) -> dict[str, NDArray]:
@@ -244,7 +256,11 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Any:
     class_vector = _class_vector(header, K)
     forest = _new_forest(Forest, header, task, sampler, splitter, classes, class_vector)
     spec = forest._settings.categorical
-    if sorted(resolve_categorical(spec, len(names), list(names))) != sorted(levels):
+    frame = header.get("frame_categories") or {}
+    if not isinstance(frame, dict) or any(k not in names or not isinstance(v, list) for k, v in frame.items()):
+        raise ModelFileError("the header's frame_categories must map column names to lists of labels")
+    forest._frame_labels = {k: tuple(v) for k, v in frame.items()}
+    if sorted(resolve_categorical(spec, len(names), list(names), frame=frame)) != sorted(levels):
         raise ModelFileError("the header's categorical setting does not match the stored category levels")
     forest._levels, forest._categories = levels, (categories if levels else None)
     forest._trees = _trees(arrays)

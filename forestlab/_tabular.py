@@ -3,6 +3,10 @@
 pandas stays optional. A data frame is recognised without importing pandas: through
 ``sys.modules.get("pandas")`` when pandas is loaded, and otherwise by duck typing (an object with
 ``columns`` and ``to_numpy``). Arrays get the names ``x0 .. x{p-1}``.
+
+A pandas column of category dtype is a categorical predictor: it is read as the codes of its categories
+(NaN for a missing value), and the category labels seen in fit are kept so that a frame at predict time is
+coded by label, whatever its own category order; a label not seen in fit becomes NaN.
 """
 
 from __future__ import annotations
@@ -16,9 +20,9 @@ import numpy as np
 __all__ = ["default_names", "is_frame", "read_table", "match_columns"]
 
 MSG_CATEGORICAL = (
-    "`{name}` has non-numeric column(s) {columns} (category, object, string or date dtype); forestlab reads "
-    "numbers only. Encode category labels as numbers (one number per category, NaN for a missing one) and "
-    "name those columns in `categorical=`"
+    "`{name}` has non-numeric column(s) {columns} (object, string or date dtype); forestlab reads numbers and "
+    "pandas category columns. Convert label columns with `.astype(\"category\")`, or encode them as numbers "
+    "(one number per category, NaN for a missing one) and name them in `categorical=`"
 )
 
 
@@ -53,6 +57,29 @@ def _is_numeric(dtype: Any) -> bool:
     return getattr(dtype, "kind", "O") in "biuf"
 
 
+def _category_labels(X: Any, names: tuple[str, ...]) -> dict[str, tuple]:
+    """Labels of the frame's pandas category columns, by column name."""
+    pandas = sys.modules.get("pandas")
+    dtypes = getattr(X, "dtypes", None)
+    if pandas is None or dtypes is None:
+        return {}
+    return {c: tuple(d.categories.tolist()) for c, d in zip(names, list(dtypes))
+            if isinstance(d, pandas.CategoricalDtype)}
+
+
+def _coded(X: Any, labels: dict[str, tuple]) -> Any:
+    """The frame with each labelled column replaced by float codes of ``labels`` (NaN: missing or unseen)."""
+    if not labels:
+        return X
+    pandas = sys.modules["pandas"]
+    X = X.copy()
+    for c, known in labels.items():
+        codes = pandas.Index(list(known)).get_indexer(X[c].astype(object)).astype(np.float64)
+        codes[codes < 0] = np.nan
+        X[c] = codes
+    return X
+
+
 def _frame_values(X: Any, name: str, names: tuple[str, ...]) -> Any:
     """The frame's values as a float array, refusing non-numeric columns with the list of them."""
     dtypes = getattr(X, "dtypes", None)
@@ -71,16 +98,21 @@ def _frame_values(X: Any, name: str, names: tuple[str, ...]) -> Any:
     return values
 
 
-def read_table(X: Any, name: str = "X") -> tuple[Any, tuple[str, ...] | None]:
-    """Split ``X`` into its values and its column names (None for arrays and other array-likes)."""
+def read_table(X: Any, name: str = "X") -> tuple[Any, tuple[str, ...] | None, dict[str, tuple]]:
+    """Split ``X`` into its values, its column names (None for arrays) and its category columns' labels."""
     if not is_frame(X):
-        return X, None
+        return X, None, {}
     names = _column_names(X, name)
-    return _frame_values(X, name, names), names
+    labels = _category_labels(X, names)
+    return _frame_values(_coded(X, labels), name, names), names, labels
 
 
-def match_columns(X: Any, feature_names: tuple[str, ...], name: str = "X") -> Any:
-    """Values of ``X`` with columns in training order: a data frame by column name, an array by position."""
+def match_columns(X: Any, feature_names: tuple[str, ...], name: str = "X",
+                  labels: dict[str, tuple] | None = None) -> Any:
+    """Values of ``X`` with columns in training order: a data frame by column name, an array by position.
+
+    Columns named in ``labels`` (the category labels seen in fit) are coded by label.
+    """
     if not is_frame(X):
         return X
     names = _column_names(X, name)
@@ -95,4 +127,5 @@ def match_columns(X: Any, feature_names: tuple[str, ...], name: str = "X") -> An
             )
         columns = list(X.columns)
         X = X[[columns[names.index(c)] for c in feature_names]]
-    return _frame_values(X, name, feature_names)
+        X.columns = list(feature_names)
+    return _frame_values(_coded(X, labels or {}), name, feature_names)

@@ -96,16 +96,17 @@ TreeArrays = Tree
 
 
 def goes_right(X: NDArray[np.float64], row, node, feature, threshold, missing_left, category_left,
-               categories, missing: bool = True) -> NDArray[np.bool_]:
+               missing: bool = True) -> NDArray[np.bool_]:
     """Whether each (row, node) pair goes to the node's right child: value above the threshold, the missing
-    side for NaN, the left-category set for a categorical split. ``missing=False`` promises X has no NaN."""
+    side for NaN, the complement of the left-category set at a categorical split (threshold NaN).
+    ``missing=False`` promises that ``X`` holds no NaN."""
     value = X.ravel()[row * X.shape[1] + feature[node]]
     right = value > threshold[node]
-    if categories is None and not missing:
+    if category_left.shape[1] == 0 and not missing:
         return right
     gap = np.isnan(value)
-    if categories is not None:
-        coded = np.flatnonzero((categories[feature[node]] > 0) & ~gap)
+    if category_left.shape[1]:
+        coded = np.flatnonzero(np.isnan(threshold[node]) & ~gap)
         if coded.size:
             right[coded] = ~in_left_set(category_left[node[coded]], value[coded])
     gap = np.flatnonzero(gap)
@@ -114,8 +115,9 @@ def goes_right(X: NDArray[np.float64], row, node, feature, threshold, missing_le
     return right
 
 
-def leaf_index(tree: Tree, X: NDArray[np.float64], categories: NDArray[np.int64] | None = None) -> NDArray[np.int64]:
-    """Leaf reached by every row of ``X``, pushing all rows down the tree one level at a time."""
+def leaf_index(tree: Tree, X: NDArray[np.float64]) -> NDArray[np.int64]:
+    """Leaf reached by every row of ``X`` (categorical columns coded as in training), pushing all rows down
+    the tree one level at a time."""
     node = np.zeros(X.shape[0], dtype=np.int64)
     active = np.arange(X.shape[0])
     missing = bool(np.isnan(X).any())
@@ -126,5 +128,5 @@ def leaf_index(tree: Tree, X: NDArray[np.float64], categories: NDArray[np.int64]
             break
         active, here = active[inner], here[inner]
         node[active] = tree.left[here] + goes_right(X, active, here, tree.feature, tree.threshold,
-                                                    tree.missing_left, tree.category_left, categories, missing)
+                                                    tree.missing_left, tree.category_left, missing)
     return node

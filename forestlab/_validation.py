@@ -125,10 +125,14 @@ def _check_categorical(value: Any) -> tuple[int | str, ...] | None:
 
 
 def resolve_categorical(spec: tuple[int | str, ...] | None, features: int,
-                        names: list[str] | None = None) -> list[int]:
-    """Positions of the categorical features, checked against the data's width (and column names)."""
+                        names: list[str] | None = None, frame: dict | None = None) -> list[int]:
+    """Positions of the categorical features, checked against the data's width (and column names).
+
+    ``frame`` names a data frame's category columns, which are categorical whether or not ``spec`` lists them.
+    """
+    extra = sorted(names.index(c) for c in frame) if frame and names is not None else []
     if not spec:
-        return []
+        return extra
     positions = []
     for entry in spec:
         if isinstance(entry, str):
@@ -142,7 +146,7 @@ def resolve_categorical(spec: tuple[int | str, ...] | None, features: int,
             positions.append(entry % features)
     if len(set(positions)) != len(positions):
         raise ValueError(f"`categorical` lists a column twice: {list(spec)}")
-    return sorted(positions)
+    return sorted(set(positions) | set(extra))
 
 
 def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth_limit: Any,

@@ -41,7 +41,7 @@ class TestFrames:
         with pytest.raises(ValueError, match=r"`X` has repeated column names \['a'\]"):
             fl.Forest(trees=2).fit(df.set_axis(["a", "a", "c"], axis=1), y)
         coloured = df.assign(colour=pd.Categorical(["red", "blue"] * 60), note=["x"] * 120)
-        with pytest.raises(TypeError, match=r"non-numeric column\(s\) \['colour', 'note'\].*`categorical=`"):
+        with pytest.raises(TypeError, match=r"non-numeric column\(s\) \['note'\].*astype\(\"category\"\)"):
             fl.Forest(trees=2).fit(coloured, y)
         # encoded as numbers, a category column is named in `categorical=` (matched to the frame's names)
         codes = coloured.assign(colour=coloured["colour"].cat.codes.astype(float)).drop(columns="note")
@@ -54,6 +54,28 @@ class TestFrames:
             forest.predict(df.rename(columns={"c": "z"}))
         with pytest.raises(ValueError, match=r"unexpected \['extra'\]"):
             forest.predict(df.assign(extra=1.0))
+
+    def test_category_columns_are_categorical_and_coded_by_label(self, tmp_path):
+        pd = pytest.importorskip("pandas")
+        rng = np.random.default_rng(4)
+        supplier = rng.choice(["acme", "borealis", "cobalt"], 300)
+        y = np.where(supplier == "borealis", "rework", "pass")
+        frame = pd.DataFrame({"supplier": pd.Categorical(supplier), "noise": rng.normal(size=300)})
+        forest = fl.Forest(trees=20, rng=0).fit(frame, y)
+        assert list(forest._levels) == [0]
+        assert forest.oob.error == 0.0
+        # a new frame with its own category order, an unseen label and a missing one
+        new = pd.DataFrame({"noise": [0.0, 0.0, 0.0, 0.0],
+                            "supplier": pd.Categorical(["borealis", "acme", "zephyr", None],
+                                                       categories=["zephyr", "borealis", "acme"])})
+        predicted = forest.predict(new)
+        assert predicted[:2].tolist() == ["rework", "pass"]
+        # unseen and missing labels take the same (missing-value) path in every tree
+        np.testing.assert_array_equal(forest.per_tree(new)[:, 2], forest.per_tree(new)[:, 3])
+        forest.add_trees(frame, y, trees=2)
+        path = tmp_path / "suppliers.npz"
+        forest.save(path)
+        np.testing.assert_array_equal(fl.load(path).predict(new), forest.predict(new))
 
     def test_names_and_matching(self):
         pd = pytest.importorskip("pandas")
