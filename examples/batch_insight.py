@@ -1,12 +1,12 @@
 """Why does the forest send a coating batch to rework?
 
-The same (fictional) coatings plant as ``batch_inspection.py``: seven process measurements per batch and a lab
-grade, "pass" or "rework". Once the forest flags batches well, the process engineers ask which measurements
+The same (fictional) coatings plant as ``batch_inspection.py``: seven process measurements and the pigment
+supplier per batch, and a lab grade, "pass" or "rework". Once the forest flags batches well, the process engineers ask which measurements
 drive the grade, how the rework risk moves with oven temperature and humidity, and which past batches look
 unlike the others of their grade (grading mistakes, or a process state worth a closer look).
 
 All data are invented by the seeded generator of ``batch_inspection.py``; run
-``python examples/batch_insight.py`` (needs ``pip install 'forestlab[plot]'``). The pictures go to
+``python examples/batch_insight.py`` (needs ``pip install 'forestlab[plot,frames]'``). The pictures go to
 ``examples/out/``.
 """
 
@@ -20,7 +20,7 @@ matplotlib.use("Agg")
 
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
-from batch_inspection import MEASUREMENTS, make_batches  # noqa: E402
+from batch_inspection import make_batches  # noqa: E402
 
 import forestlab as fl  # noqa: E402
 import forestlab.plot as flp  # noqa: E402
@@ -38,22 +38,21 @@ def save(ax: plt.Axes, name: str) -> None:
 
 def main() -> None:
     OUT.mkdir(exist_ok=True)
-    X, grade = make_batches(1500, np.random.default_rng(2026))
+    X, grade, _ = make_batches(1500, np.random.default_rng(2026))
     forest = fl.Forest(trees=300, rng=11).fit(X, grade)
     print(f"forest: {forest.trees} trees on {X.shape[0]} batches x {X.shape[1]} measurements\n")
 
-    ranked = forest.importance(names=MEASUREMENTS, rng=5)
+    ranked = forest.importance(rng=5)
     print(ranked, "\n")
-    print(forest.importance("impurity", names=MEASUREMENTS), "\n")
-    together = forest.importance(groups={"line (speed + film)": [1, 4], "oven_temp_C": [0]}, names=MEASUREMENTS,
-                                 rng=5)
+    print(forest.importance("impurity"), "\n")
+    together = forest.importance(groups={"line (speed + film)": [1, 4], "oven_temp_C": [0]}, rng=5)
     print(together, "\n")
 
     oven = forest.partial_dependence(0, ice=True, label="rework")
     low = oven.grid[0][np.argmin(oven.average)]
     print(f"rework vote share is lowest ({oven.average.min():.0%}) at an oven temperature of {low:.1f} C "
           f"and rises to {oven.average[0]:.0%} / {oven.average[-1]:.0%} at the ends of the grid")
-    surface = forest.partial_dependence((2, 4), label="rework", points=12, X=X[::6])  # every 6th batch: quicker
+    surface = forest.partial_dependence((2, 4), label="rework", points=12, X=X.iloc[::6])  # every 6th batch: quicker
 
     score = forest.outlyingness()
     odd = np.argsort(-score)[:6]
@@ -69,11 +68,8 @@ def main() -> None:
     save(flp.partial_dependence(oven, name="oven temperature (C)"), "dependence_oven.png")
     save(flp.partial_dependence(surface, name=("humidity (%)", "film thickness (um)")), "dependence_surface.png")
     save(flp.proximity_map(layout, grade, outliers=odd), "proximity_map.png")
-    if hasattr(type(forest), "oob"):
-        save(flp.error_curve(forest.oob.error_curve), "error_curve.png")
-        save(flp.margins(forest.oob.margins, forest.oob.doubtful()), "margins.png")
-    else:
-        print("  (error-curve and margin pictures need forest.oob)")
+    save(flp.error_curve(forest.oob.error_curve), "error_curve.png")
+    save(flp.margins(forest.oob.margins, forest.oob.doubtful()), "margins.png")
 
 
 if __name__ == "__main__":

@@ -1,25 +1,30 @@
 """Which production batches need a second inspection?
 
-A (fictional) coatings plant records seven process measurements for every batch it makes, and its quality lab
-later grades each batch "pass" or "rework". The lab wants a forest that flags new batches for a second
-inspection, an honest error estimate without setting aside a test set, and a list of past batches whose grade
-the forest finds doubtful (possible grading mistakes or borderline cases worth a second look).
+A (fictional) coatings plant records seven process measurements and the pigment supplier for every batch it
+makes, and its quality lab later grades each batch "pass" or "rework". The humidity sensor drops out now and
+then, so some readings are missing. The lab wants a forest that flags new batches for a second inspection, an
+honest error estimate without setting aside a test set, and a list of past batches whose grade the forest
+finds doubtful (possible grading mistakes or borderline cases worth a second look).
 
-All data here are invented by the seeded generator below; run ``python examples/batch_inspection.py``.
+All data here are invented by the seeded generator below; run ``python examples/batch_inspection.py``
+(needs pandas: ``pip install 'forestlab[frames]'``).
 """
 
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 
 import forestlab as fl
 
 MEASUREMENTS = ["oven_temp_C", "line_speed_m_min", "humidity_pct", "viscosity_cP", "film_um", "cure_min",
-                "pigment_lot_age_d"]
+                "pigment_lot_age_d", "pigment_supplier"]
+SUPPLIERS = ["Ardent", "Brightwell", "Corvane", "Dunmore"]
 
 
-def make_batches(n: int, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Invented process records, grades, and which grades were deliberately recorded wrongly (about 3%)."""
+def make_batches(n: int, rng: np.random.Generator) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
+    """Invented process records (a data frame), grades, and which grades were deliberately recorded wrongly
+    (about 3%). The supplier column is categorical; about 6% of humidity readings are missing."""
     oven = rng.normal(182, 6, n)
     speed = rng.normal(24, 3, n)
     humidity = rng.uniform(25, 70, n)
@@ -27,13 +32,17 @@ def make_batches(n: int, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarr
     film = rng.normal(38, 4, n) - 0.25 * (speed - 24)
     cure = rng.normal(22, 2.5, n)
     lot_age = rng.exponential(40, n)
+    supplier = rng.choice(SUPPLIERS, n, p=[0.4, 0.3, 0.2, 0.1])
     risk = (0.35 * np.abs(oven - 182) + 0.08 * np.maximum(humidity - 55, 0) ** 1.5
-            + 0.9 * np.maximum(34 - film, 0) + 0.6 * np.maximum(19 - cure, 0) + 0.01 * lot_age)
+            + 0.9 * np.maximum(34 - film, 0) + 0.6 * np.maximum(19 - cure, 0) + 0.01 * lot_age
+            + 1.2 * np.isin(supplier, ["Corvane", "Dunmore"]))
     rework = risk + rng.normal(0, 0.4, n) > 3.2
     flipped = rng.random(n) < 0.03
     grade = np.where(rework ^ flipped, "rework", "pass")
-    X = np.column_stack([oven, speed, humidity, viscosity, film, cure, lot_age])
-    return X, grade, flipped
+    humidity = np.where(rng.random(n) < 0.06, np.nan, humidity)   # sensor drop-outs
+    frame = pd.DataFrame(dict(zip(MEASUREMENTS, [oven, speed, humidity, viscosity, film, cure, lot_age,
+                                                 pd.Categorical(supplier, categories=SUPPLIERS)])))
+    return frame, grade, flipped
 
 
 # The error curve "levels off" at the smallest number of trees after which it stays within this fraction of
@@ -47,6 +56,8 @@ def main() -> None:
     new_X, new_grade, _ = make_batches(500, rng)
     forest = fl.Forest(trees=300, rng=11).fit(X, grade)
     print(f"forest: {forest.trees} trees on {X.shape[0]} batches x {X.shape[1]} measurements")
+    gaps = int(X["humidity_pct"].isna().sum())
+    print(f"'pigment_supplier' is categorical ({len(SUPPLIERS)} suppliers); {gaps} humidity readings are missing")
     print(f"classes (vote columns): {forest.classes.tolist()}")
     oob = forest.oob
     error = np.mean(forest.predict(new_X) != new_grade)

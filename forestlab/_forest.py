@@ -430,7 +430,7 @@ class Forest:
         and a solution", BMC Bioinformatics 8:25). Prefer the permutation kind to compare features of
         different types.
 
-        ``names`` label the features (default ``"x0"``, ``"x1"``, ...); ``rng`` seeds the shuffles (tree ``b``
+        ``names`` label the features (default :attr:`feature_names`); ``rng`` seeds the shuffles (tree ``b``
         draws from its own child of the seed, so results do not depend on the order of work).
         """
         return _importance.importance(self, kind, X=X, y=y, groups=groups, names=names, rng=rng)

@@ -96,7 +96,7 @@ def importance(forest: Any, kind: str = "permutation", *, X: Any = None, y: Any 
     forest._check_fitted()
     if not isinstance(kind, str) or kind not in KINDS:
         raise ValueError(f"`kind` must be one of {list(KINDS)}; got {kind!r}")
-    labels = _check_names(names, forest.features)
+    labels = _check_names(names, forest.features, getattr(forest, "feature_names", None))
     columns, entry_names = _check_groups(groups, labels)
     if kind == "impurity":
         if X is not None or y is not None:
@@ -115,9 +115,9 @@ def importance(forest: Any, kind: str = "permutation", *, X: Any = None, y: Any 
     return _summarise(kind, entry_names, columns, per_tree, measure)
 
 
-def _check_names(names: Any, features: int) -> tuple[str, ...]:
+def _check_names(names: Any, features: int, known: tuple[str, ...] | None = None) -> tuple[str, ...]:
     if names is None:
-        return tuple(f"x{j}" for j in range(features))
+        return tuple(known) if known is not None else tuple(f"x{j}" for j in range(features))
     if isinstance(names, str) or not isinstance(names, Sequence | np.ndarray):
         raise TypeError(f"`names` must be a sequence of {features} strings; got {type(names).__name__}")
     labels = tuple(str(v) for v in names)

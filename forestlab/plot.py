@@ -123,8 +123,9 @@ def margins(margins: ArrayLike, doubtful: ArrayLike | None = None, *, threshold:
     ----------
     margins : array_like, shape (n,)
         Margin of every case, in [-1, 1]; NaN (never out-of-bag) is left out.
-    doubtful : array_like of int, optional
-        Indices of the doubtful cases (e.g. ``forest.oob.doubtful()``); default: margins below ``threshold``.
+    doubtful : array_like of int or DoubtfulCases, optional
+        The doubtful cases: their indices, or ``forest.oob.doubtful()`` itself; default: margins below
+        ``threshold``.
     threshold : float, default 0
         Drawn as a vertical line.
     bins : int, default 30
@@ -138,7 +139,7 @@ def margins(margins: ArrayLike, doubtful: ArrayLike | None = None, *, threshold:
     if doubtful is None:
         marked = np.flatnonzero(values < threshold)
     else:
-        marked = np.asarray(doubtful).reshape(-1)
+        marked = np.asarray(getattr(doubtful, "case", doubtful)).reshape(-1)
         if marked.size and (marked.dtype.kind not in "iu" or marked.min() < -values.size
                             or marked.max() >= values.size):
             raise ValueError(f"`doubtful` must hold int case indices below {values.size}")
