@@ -361,12 +361,14 @@ class Forest:
     def oob(self) -> OutOfBag:
         """Out-of-bag results (:class:`OutOfBag`), computed on first access from the trees and :attr:`inbag`.
 
-        Cached until :meth:`fit` or :meth:`add_trees` change the forest. Warns once with
+        Cached until :meth:`fit` or :meth:`add_trees` change the forest. With case weights the errors (and
+        their curve, the confusion matrix and the per-class errors) are weighted by them. Warns once with
         :class:`NeverOutOfBagWarning` when some case was never out-of-bag.
         """
         self._check_fitted()
         if self._oob is None:
-            self._oob = out_of_bag(self._trees, self.inbag, self._data.X, self._target, stacklevel=2)
+            self._oob = out_of_bag(self._trees, self.inbag, self._data.X, self._target, stacklevel=2,
+                                   weights=self.case_weights)
         return self._oob
 
     # ----------------------------------------------------------------------------------------- inspection

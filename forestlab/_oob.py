@@ -60,7 +60,7 @@ def oob_entries(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float
 
 
 def out_of_bag(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float64], target: Target,
-               stacklevel: int = 1) -> OutOfBag:
+               stacklevel: int = 1, weights: NDArray[np.float64] | None = None) -> OutOfBag:
     """Compute every OOB result of a fitted forest (see :class:`OutOfBag`).
 
     Parameters
@@ -75,6 +75,9 @@ def out_of_bag(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float6
         The validated training targets.
     stacklevel : int, default 1
         Frame the warning points at, counted from the caller of this function.
+    weights : ndarray of float64, shape (n,), optional
+        Case weights: the error, its curve, the confusion matrix and the per-class errors are weighted
+        means / sums over the covered cases. Votes and margins are not weighted.
 
     Warns
     -----
@@ -84,9 +87,9 @@ def out_of_bag(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float6
     entries = oob_entries(trees, inbag, X)
     n = X.shape[0]
     if target.task == "classification":
-        result = _classification(entries, target, n)
+        result = _classification(entries, target, n, weights)
     else:
-        result = _regression(entries, target.values)
+        result = _regression(entries, target.values, weights)
     never = int(np.count_nonzero(result.coverage == 0))
     if never:
         warnings.warn(
@@ -97,8 +100,8 @@ def out_of_bag(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float6
 
 
 # ------------------------------------------------------------------------------------- classification
-def _class_pass(entries: _Entries, y: NDArray[np.int64], n: int, K: int):
-    """Vote counts (n, K) and the error curve, accumulated tree by tree."""
+def _class_pass(entries: _Entries, y: NDArray[np.int64], n: int, K: int, weights):
+    """Vote counts (n, K) and the (weighted) error curve, accumulated tree by tree."""
     trees = entries.start.size - 1
     counts = np.zeros((n, K), dtype=np.int64)
     wrong = np.zeros(n, dtype=bool)
@@ -109,8 +112,13 @@ def _class_pass(entries: _Entries, y: NDArray[np.int64], n: int, K: int):
         rows, cls = entries.of_tree(b)
         counts[rows, cls] += 1
         now_wrong = np.argmax(counts[rows], axis=1) != y[rows]
-        n_wrong += int(np.count_nonzero(now_wrong)) - int(np.count_nonzero(wrong[rows]))
-        n_seen += rows.size - int(np.count_nonzero(seen[rows]))
+        if weights is None:
+            n_wrong += int(np.count_nonzero(now_wrong)) - int(np.count_nonzero(wrong[rows]))
+            n_seen += rows.size - int(np.count_nonzero(seen[rows]))
+        else:
+            w = weights[rows]
+            n_wrong += float(w[now_wrong].sum() - w[wrong[rows]].sum())
+            n_seen += float(w[~seen[rows]].sum())
         wrong[rows] = now_wrong
         seen[rows] = True
         if n_seen:
@@ -118,11 +126,11 @@ def _class_pass(entries: _Entries, y: NDArray[np.int64], n: int, K: int):
     return counts, curve
 
 
-def _classification(entries: _Entries, target: Target, n: int) -> OutOfBag:
+def _classification(entries: _Entries, target: Target, n: int, weights) -> OutOfBag:
     y, classes = target.values, target.classes
     K = classes.size
     entries = replace(entries, value=entries.value.astype(np.intp))
-    counts, curve = _class_pass(entries, y, n, K)
+    counts, curve = _class_pass(entries, y, n, K, weights)
     coverage = counts.sum(axis=1)
     covered = coverage > 0
     votes = np.full((n, K), np.nan)
@@ -138,12 +146,18 @@ def _classification(entries: _Entries, target: Target, n: int) -> OutOfBag:
         labels = labels.astype(object)
         labels[~covered] = None
     yc, ic = y[covered], index[covered]
-    confusion = np.bincount(yc * K + ic, minlength=K * K).reshape(K, K)
+    wc = None if weights is None else weights[covered]
+    confusion = np.bincount(yc * K + ic, weights=wc, minlength=K * K).reshape(K, K)
     per_class = confusion.sum(axis=1)
     by_class = np.full(K, np.nan)
     has = per_class > 0
     by_class[has] = 1.0 - np.diag(confusion)[has] / per_class[has]
-    error = float(np.count_nonzero(yc != ic) / yc.size) if yc.size else float("nan")
+    if not yc.size:
+        error = float("nan")
+    elif wc is None:
+        error = float(np.count_nonzero(yc != ic) / yc.size)
+    else:
+        error = float(wc[yc != ic].sum() / wc.sum())
     s, rho, bound = _strength_correlation(entries, y, j_hat, margins[covered], K)
     return OutOfBag(task="classification", observed=classes[y], predictions=labels, class_index=index,
                     votes=votes, coverage=coverage, error=error, error_curve=curve, margins=margins,
@@ -174,8 +188,8 @@ def _strength_correlation(entries: _Entries, y: NDArray[np.int64], j_hat: NDArra
 
 
 # ------------------------------------------------------------------------------------------ regression
-def _regression_pass(entries: _Entries, y: NDArray[np.float64], n: int):
-    """OOB sums and counts per case, and the error curve, accumulated tree by tree."""
+def _regression_pass(entries: _Entries, y: NDArray[np.float64], n: int, weights):
+    """OOB sums and counts per case, and the (weighted) error curve, accumulated tree by tree."""
     trees = entries.start.size - 1
     sums = np.zeros(n)
     count = np.zeros(n, dtype=np.int64)
@@ -184,10 +198,13 @@ def _regression_pass(entries: _Entries, y: NDArray[np.float64], n: int):
     curve = np.full(trees, np.nan)
     for b in range(trees):
         rows, value = entries.of_tree(b)
-        n_seen += int(np.count_nonzero(count[rows] == 0))
+        fresh = count[rows] == 0
+        n_seen += int(np.count_nonzero(fresh)) if weights is None else float(weights[rows][fresh].sum())
         sums[rows] += value
         count[rows] += 1
         now = (y[rows] - sums[rows] / count[rows]) ** 2
+        if weights is not None:
+            now *= weights[rows]
         sse += float(np.sum(now) - np.sum(squared[rows]))
         squared[rows] = now
         if n_seen:
@@ -195,9 +212,9 @@ def _regression_pass(entries: _Entries, y: NDArray[np.float64], n: int):
     return sums, count, curve
 
 
-def _regression(entries: _Entries, y: NDArray[np.float64]) -> OutOfBag:
+def _regression(entries: _Entries, y: NDArray[np.float64], weights) -> OutOfBag:
     n = y.size
-    sums, coverage, curve = _regression_pass(entries, y, n)
+    sums, coverage, curve = _regression_pass(entries, y, n, weights)
     covered = coverage > 0
     c = np.maximum(coverage, 1)
     predictions = np.where(covered, sums / c, np.nan)
@@ -205,8 +222,13 @@ def _regression(entries: _Entries, y: NDArray[np.float64]) -> OutOfBag:
     spread = np.where(covered, np.sqrt(np.bincount(entries.row, weights=deviation**2, minlength=n) / c), np.nan)
     residuals = y - predictions
     margins = _standardised(residuals, spread, covered)
-    error = float(np.mean(residuals[covered] ** 2)) if covered.any() else float("nan")
-    var_y = float(np.var(y[covered])) if covered.any() else 0.0
+    w = np.ones(n) if weights is None else weights
+    if covered.any():
+        error = float(np.average(residuals[covered] ** 2, weights=w[covered]))
+        centre = np.average(y[covered], weights=w[covered])
+        var_y = float(np.average((y[covered] - centre) ** 2, weights=w[covered]))
+    else:
+        error, var_y = float("nan"), 0.0
     explained = 1.0 - error / var_y if var_y > 0 else float("nan")
     return OutOfBag(task="regression", observed=y, predictions=predictions, class_index=None, votes=None,
                     coverage=coverage, error=error, error_curve=curve, margins=margins, residuals=residuals,

@@ -219,3 +219,30 @@ class TestOutOfBagResult:
         assert oob.explained_variance == pytest.approx(1 - oob.error / np.var(y), rel=1e-12)
         assert oob.votes is None and oob.strength is None and oob.confusion is None
         assert oob.error_curve[-1] == pytest.approx(oob.error, rel=1e-12)
+
+
+class TestWeightedOutOfBag:
+    """With case weights the OOB error is the weighted share (or mean square) over the covered cases."""
+
+    def test_weighted_error_and_curve(self):
+        rng = np.random.default_rng(8)
+        X = rng.normal(size=(200, 3))
+        y = (X[:, 0] + rng.normal(scale=0.8, size=200) > 0).astype(int)
+        w = rng.integers(1, 5, 200).astype(float)
+        oob = fl.Forest(trees=40, rng=3).fit(X, y, weights=w).oob
+        covered = oob.coverage > 0
+        wrong = oob.class_index != y
+        assert oob.error == pytest.approx(np.sum(w[covered & wrong]) / np.sum(w[covered]), rel=1e-12)
+        assert oob.error_curve[-1] == pytest.approx(oob.error, rel=1e-12)
+        assert oob.confusion.sum() == pytest.approx(w[covered].sum())
+
+    def test_weighted_mean_squared_error(self):
+        rng = np.random.default_rng(9)
+        X = rng.uniform(size=(200, 3))
+        y = 3 * X[:, 0] + rng.normal(scale=0.3, size=200)
+        w = rng.uniform(0.5, 2.0, 200)
+        oob = fl.Forest(trees=40, rng=3).fit(X, y, weights=w).oob
+        covered = oob.coverage > 0
+        expected = np.average(oob.residuals[covered] ** 2, weights=w[covered])
+        assert oob.error == pytest.approx(expected, rel=1e-12)
+        assert oob.error_curve[-1] == pytest.approx(expected, rel=1e-9)
