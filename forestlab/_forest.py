@@ -222,10 +222,10 @@ class Forest:
         """Grow the forest on predictors ``X`` (n, p) and targets ``y`` (n,); returns the forest.
 
         ``X`` is an array or a data frame of numeric columns (its column names become
-        :attr:`feature_names`). ``weights`` (n,) are optional case weights, finite and positive: a case
-        drawn ``c`` times weighs ``c * weight`` in every split score, in ``min_leaf`` and in the leaf values;
-        :attr:`inbag` keeps the unweighted draw counts. Zero weights are not accepted yet; drop those rows
-        instead. Refitting replaces every tree.
+        :attr:`feature_names`). ``weights`` (n,) are optional case weights, finite and non-negative: a
+        case drawn ``c`` times weighs ``c * weight`` in every split score, in ``min_leaf``, in the leaf values
+        and in the out-of-bag error; a case of weight 0 takes no part in growing. :attr:`inbag` keeps the
+        unweighted draw counts. Refitting replaces every tree.
         """
         values, names, labels = read_table(X)
         X = check_X(values)

@@ -60,7 +60,11 @@ def grow_batch(data: TrainingData, rules: GrowthRules,
     counts = np.stack([draw_counts(g, n, rules.sample_size, rules.replace, data.strata) for g in gens])
     subspace = _tree_masks(rules.sampler, gens, data.features)
     batch = _Batch.weighted(data, counts)
-    rows = [np.flatnonzero(c) for c in counts]
+    rows = [np.flatnonzero(w > 0) for w in batch.stats[0].reshape(len(gens), n)]
+    empty = [b for b, r in enumerate(rows) if r.size == 0]
+    if empty:
+        raise ValueError(f"the bootstrap sample of tree {seeds[empty[0]].spawn_key[-1]} holds only cases of "
+                         "weight 0; give more cases a positive weight")
     items = Items(np.concatenate(rows), np.repeat(np.arange(len(gens)), [r.size for r in rows]))
     node_tree = np.arange(len(gens))
     base = np.zeros(len(gens), dtype=np.int64)

@@ -247,8 +247,8 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Any:
     weights = arrays.get("case_weights")
     if weights is not None:
         check_finite("case weights", weights)
-        if not np.all(weights > 0):
-            raise ModelFileError("the file's case weights must all be positive")
+        if not (np.all(weights >= 0) and np.any(weights > 0)):
+            raise ModelFileError("the file's case weights must be >= 0 and not all zero")
     sampler = _restore(field(header, "sampler", dict), "sampler", components)
     splitter = _restore(field(header, "splitter", dict), "splitter", components)
     if isinstance(splitter, CartSplitter) and splitter.task != task:

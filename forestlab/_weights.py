@@ -22,8 +22,8 @@ BALANCE_CHOICES = ("classes",)
 def check_weights(weights: Any, rows: int) -> NDArray[np.float64] | None:
     """Case weights as a read-only float64 array of length ``rows`` (None stays None).
 
-    Rules: 1-D, numeric (not bool), one per case, finite and positive. Zero weights are refused for now:
-    the split search assumes every drawn case has positive weight (drop such rows instead).
+    Rules: 1-D, numeric (not bool), one per case, finite and non-negative, not all zero. A case of weight 0
+    takes no part in growing any tree (as if its row were dropped) but still gets out-of-bag predictions.
     """
     if weights is None:
         return None
@@ -36,10 +36,12 @@ def check_weights(weights: Any, rows: int) -> NDArray[np.float64] | None:
     if arr.ndim != 1 or arr.shape[0] != rows:
         raise ValueError(f"`weights` must be 1-D with one weight per case ({rows}); got shape {arr.shape}")
     out = np.array(arr, dtype=np.float64)
-    bad = np.flatnonzero(~np.isfinite(out) | (out <= 0))
+    bad = np.flatnonzero(~np.isfinite(out) | (out < 0))
     if bad.size:
-        raise ValueError(f"`weights` must be finite and > 0; {bad.size} are not, first at row {bad[0]} "
-                         f"({out[bad[0]]}); to leave cases out, drop their rows")
+        raise ValueError(f"`weights` must be finite and >= 0; {bad.size} are not, first at row {bad[0]} "
+                         f"({out[bad[0]]})")
+    if not np.any(out > 0):
+        raise ValueError("`weights` are all zero; at least one case must carry weight")
     out.flags.writeable = False
     return out
 

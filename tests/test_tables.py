@@ -132,9 +132,8 @@ class TestWeights:
         X, y = _problem(n=10)
         forest = fl.Forest(trees=2)
         for bad, err, msg in [(np.ones(9), ValueError, r"one weight per case \(10\); got shape \(9,\)"),
-                              (np.r_[np.ones(9), -1.0], ValueError, r"finite and > 0; 1 are not, first at row 9"),
-                              (np.r_[np.ones(9), np.nan], ValueError, r"finite and > 0"),
-                              (np.r_[0.0, np.ones(9)], ValueError, r"first at row 0 \(0.0\); to leave cases out"),
+                              (np.r_[np.ones(9), -1.0], ValueError, r"finite and >= 0; 1 are not, first at row 9"),
+                              (np.r_[np.ones(9), np.nan], ValueError, r"finite and >= 0"),
                               (np.ones(10, bool), TypeError, r"real numbers .* got dtype bool"),
                               (["a"] * 10, TypeError, r"real numbers")]:
             with pytest.raises(err, match=r"^`weights` .*" + msg):
@@ -255,3 +254,30 @@ class TestBalance:
         assert plain_error > 0.6
         assert balanced_error < 0.4
         assert balanced_error < 0.5 * plain_error
+
+
+class TestZeroWeights:
+    def test_zero_weight_equals_dropping_the_row(self):
+        # common practice: a case of weight 0 contributes nothing to any sum, so the tree grown with it equals
+        # the tree grown without its row (whole sample, no bootstrap, all features)
+        rng = np.random.default_rng(12)
+        X = rng.normal(size=(80, 3))
+        y = (X[:, 0] + X[:, 1] > 0).astype(int)
+        w = np.ones(80)
+        w[::7] = 0.0
+        keep = w > 0
+        settings = dict(trees=1, sampler=fl.AllFeatures(), replace=False, rng=0)
+        with_zero = fl.Forest(sample_size=80, **settings).fit(X, y, weights=w).tree(0)
+        dropped = fl.Forest(sample_size=int(keep.sum()), **settings)
+        # the same rows enter both trees: compare on a forest whose only sample is the kept rows
+        tree = dropped.fit(X[keep], y[keep]).tree(0)
+        for name in ("feature", "threshold", "left", "value", "cases"):
+            np.testing.assert_array_equal(getattr(with_zero, name), getattr(tree, name))
+
+    def test_validation(self):
+        X = np.zeros((10, 2))
+        y = np.arange(10) % 2
+        with pytest.raises(ValueError, match=r"`weights` must be finite and >= 0; 1 are not, first at row 3"):
+            fl.Forest(trees=2).fit(X, y, weights=np.where(np.arange(10) == 3, -1.0, 1.0))
+        with pytest.raises(ValueError, match=r"`weights` are all zero"):
+            fl.Forest(trees=2).fit(X, y, weights=np.zeros(10))
