@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._binary_search import binary_statistics
+from ._fast_search import binary_statistics
 from ._bootstrap import draw_counts
 from ._presort import TrainingData
 from ._sampler import CandidateSampler

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._binary_search import binary_best_splits
+from ._fast_search import binary_best_splits, squared_error_applies, squared_error_best_splits
 from ._categorical import category_order, left_sets
 from ._presort import TrainingData
 from ._splitter import CartSplitter
@@ -86,7 +86,7 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
 
     Ties (scores within a relative 1e-12): lowest feature, then smallest threshold, then missing cases sent
     right. ``stats`` is the batch's channel-major weighted statistics, ``parent`` the nodes' ``W * i(t)``;
-    ``packed``, when given, the same statistics for :mod:`._binary_search`'s fast path; ``work`` holds
+    ``packed``, when given, the same statistics for :mod:`._fast_search`'s two-class path; ``work`` holds
     scratch buffers reused from level to level (results never live in it).
     """
     out = Splits.none(mask.shape[0], data.category_words)
@@ -96,6 +96,9 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
     seg = _sorted_segments(data, items, node_tree, mask, cand, work)
     if packed is not None:
         return binary_best_splits(seg, splitter, min_leaf, lightest, packed, parent, out, TIE_TOLERANCE, work)
+    if work is not None and squared_error_applies(splitter, data):
+        return squared_error_best_splits(seg, min_leaf, lightest, stats, parent, out, TIE_TOLERANCE, work,
+                                         _running_sums)
     order = _order_categories(data, seg, stats[0]) if data.category_words else None
     elem = np.take(stats, seg.wi, axis=1)
     missing = _missing_totals(seg, elem) if data.missing else None
@@ -232,14 +235,20 @@ def _packed_keys(data: TrainingData, items: Items, cand_feat, ncand, first,
     rank = data.rank.ravel()
     m = int(ncand[0])
     if m and np.all(ncand == m):
+        # slot-major (m, N): long inner loops; the order before the sort does not matter (keys are distinct)
         N = items.row.size
-        feat = np.take(cand_feat.reshape(-1, m), items.node, axis=0,
-                       out=scratch(work, "feat", N * m, np.int64).reshape(N, m), mode="clip")
-        feat += (items.row * p)[:, None]
-        key = np.add((first[items.node] * n)[:, None], np.arange(0, m * n, n),
-                     out=scratch(work, "key", N * m, np.int64).reshape(N, m))
-        key += np.take(rank, feat, out=scratch(work, "rank", N * m, rank.dtype).reshape(N, m),
-                       mode="clip")
+        by_slot = cand_feat.reshape(-1, m)
+        row_base = np.multiply(items.row, p, out=scratch(work, "row_base", N, np.int64))
+        node_base = np.take(first * n, items.node, out=scratch(work, "node_base", N, np.int64), mode="clip")
+        key = scratch(work, "key", m * N, np.int64).reshape(m, N)
+        feat = scratch(work, "feat", N, np.int64)
+        ranks = scratch(work, "rank", N, rank.dtype)
+        for j in range(m):
+            np.take(by_slot[:, j], items.node, out=feat, mode="clip")
+            feat += row_base
+            np.add(node_base, np.take(rank, feat, out=ranks, mode="clip"), out=key[j])
+            if j:
+                key[j] += j * n
         return key.ravel()
     reps = ncand[items.node]
     pair_item = np.repeat(np.arange(items.row.size), reps)
@@ -258,19 +267,19 @@ def _missing_totals(seg: _Segments, elem: NDArray[np.float64]) -> NDArray[np.flo
                      for channel in elem])
 
 
-def _running_sums(stats: NDArray[np.float64], seg: _Segments):
+def _running_sums(stats: NDArray[np.float64], seg: _Segments, cs: NDArray[np.float64] | None = None):
     """Running sums of the statistics restarted at every segment, and each segment's total.
 
     Each segment start gets the previous segment's total subtracted so one ``cumsum`` per tree restarts near
     zero (rounding stays at the scale of one segment); sums never cross trees, so a tree's arithmetic does
-    not depend on its batch. ``stats`` is modified in place.
+    not depend on its batch. ``stats`` is modified in place; ``cs``, if given, receives the running sums.
     """
     totals = np.add.reduceat(stats, seg.start, axis=1)
     tree_first = np.ones(seg.start.size, dtype=bool)
     tree_first[1:] = seg.cand_tree[1:] != seg.cand_tree[:-1]
     restart = np.flatnonzero(~tree_first)
     stats[:, seg.start[restart]] -= totals[:, restart - 1]
-    cs = np.empty_like(stats)
+    cs = np.empty_like(stats) if cs is None else cs
     bounds = np.append(seg.start[tree_first], stats.shape[1])
     for lo, hi in zip(bounds[:-1], bounds[1:]):
         np.cumsum(stats[:, lo:hi], axis=1, out=cs[:, lo:hi])
