@@ -13,12 +13,14 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from ._fast_search import binary_statistics
 from ._bootstrap import draw_counts
 from ._presort import TrainingData
 from ._sampler import CandidateSampler
 from ._splitter import CartSplitter
 from ._search import Items, Splits, best_splits, checked_impurity
 from ._tree import TreeArrays, goes_right
+from ._workspace import Workspace
 
 __all__ = ["GrowthRules", "grow_batch"]
 
@@ -40,12 +42,15 @@ class _Batch:
 
     stats: NDArray[np.float64]
     lightest: float  # smallest positive case weight; a min_leaf at most this needs no weight checks
+    packed: NDArray[np.int64] | None  # the same as packed integers, for two classes without weights
+    work: Workspace  # scratch buffers of the search, reused from level to level
 
     @classmethod
-    def weighted(cls, data: TrainingData, counts: NDArray[np.uint8]) -> _Batch:
+    def weighted(cls, data: TrainingData, counts: NDArray[np.uint8], splitter: CartSplitter) -> _Batch:
         stats = (data.stats.T[:, None, :] * counts[None, :, :]).reshape(data.stats.shape[1], -1)
         positive = stats[0][stats[0] > 0]
-        return cls(stats, float(positive.min()) if positive.size else 1.0)
+        return cls(stats, float(positive.min()) if positive.size else 1.0,
+                   binary_statistics(data, splitter, counts), Workspace())
 
 
 def grow_batch(data: TrainingData, rules: GrowthRules,
@@ -59,7 +64,7 @@ def grow_batch(data: TrainingData, rules: GrowthRules,
     n = data.rows
     counts = np.stack([draw_counts(g, n, rules.sample_size, rules.replace, data.strata) for g in gens])
     subspace = _tree_masks(rules.sampler, gens, data.features)
-    batch = _Batch.weighted(data, counts)
+    batch = _Batch.weighted(data, counts, rules.splitter)
     rows = [np.flatnonzero(w > 0) for w in batch.stats[0].reshape(len(gens), n)]
     empty = [b for b, r in enumerate(rows) if r.size == 0]
     if empty:
@@ -157,12 +162,12 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * checked_impurity(rules.splitter, totals[open_nodes])
     search = (data, rules.splitter, rules.min_leaf, batch.stats, batch.lightest)
-    splits = best_splits(*search, sub_items, sub_tree, mask, parent)
+    splits = best_splits(*search, sub_items, sub_tree, mask, parent, batch.packed, batch.work)
     if rules.sampler.per_tree or splits.found.all():
         return splits
     retry = ~mask & ~splits.found[:, None]
     again = best_splits(*search, sub_items.take(np.flatnonzero(~splits.found[sub_items.node])), sub_tree, retry,
-                        parent)
+                        parent, batch.packed, batch.work)
     splits.update(again.found, again, again.found)
     return splits
 

@@ -14,9 +14,11 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from ._fast_search import binary_best_splits, squared_error_applies, squared_error_best_splits
 from ._categorical import category_order, left_sets
 from ._presort import TrainingData
 from ._splitter import CartSplitter
+from ._workspace import Workspace, scratch
 
 __all__ = ["Items", "Splits", "best_splits", "checked_impurity"]
 
@@ -79,17 +81,24 @@ class _Segments:
 
 
 def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, stats, lightest: float,
-                items: Items, node_tree, mask, parent) -> Splits:
+                items: Items, node_tree, mask, parent, packed=None, work: Workspace | None = None) -> Splits:
     """Exact best split of every node over its candidate features.
 
     Ties (scores within a relative 1e-12): lowest feature, then smallest threshold, then missing cases sent
-    right. ``stats`` is the batch's channel-major weighted statistics, ``parent`` the nodes' ``W * i(t)``.
+    right. ``stats`` is the batch's channel-major weighted statistics, ``parent`` the nodes' ``W * i(t)``;
+    ``packed``, when given, the same statistics for :mod:`._fast_search`'s two-class path; ``work`` holds
+    scratch buffers reused from level to level (results never live in it).
     """
     out = Splits.none(mask.shape[0], data.category_words)
     cand = np.flatnonzero(mask)
     if cand.size == 0 or items.row.size == 0:
         return out
-    seg = _sorted_segments(data, items, node_tree, mask, cand)
+    seg = _sorted_segments(data, items, node_tree, mask, cand, work)
+    if packed is not None:
+        return binary_best_splits(seg, splitter, min_leaf, lightest, packed, parent, out, TIE_TOLERANCE, work)
+    if work is not None and squared_error_applies(splitter, data):
+        return squared_error_best_splits(seg, min_leaf, lightest, stats, parent, out, TIE_TOLERANCE, work,
+                                         _running_sums)
     order = _order_categories(data, seg, stats[0]) if data.category_words else None
     elem = np.take(stats, seg.wi, axis=1)
     missing = _missing_totals(seg, elem) if data.missing else None
@@ -182,35 +191,64 @@ def _record_category_sets(out: Splits, order: _CategoryOrder, nodes, cand, cut_p
     out.threshold[chosen] = np.nan
 
 
-def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand) -> _Segments:
+def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, work: Workspace | None = None,
+                     ) -> _Segments:
     """Sort all (candidate, row) pairs of a level with one ``np.sort`` of packed keys."""
     n, p = data.rows, data.features
     K = mask.shape[0]
     cand_node, cand_feat = np.divmod(cand, p)
     ncand = np.bincount(cand_node, minlength=K)
     first = np.cumsum(ncand) - ncand
-    key = _packed_keys(data, items, cand_feat, ncand, first)
+    key = _packed_keys(data, items, cand_feat, ncand, first, work)
     key.sort()
     size = np.bincount(items.node, minlength=K)[cand_node]
-    cand_of = np.repeat(np.arange(cand.size), size)
-    flat = key + np.repeat((cand_feat - np.arange(cand.size)) * n, size)
+    start = np.cumsum(size) - size
+    cand_of = _segment_ids(start, size, key.size, work)
+    flat = key
+    flat += np.take((cand_feat - np.arange(cand.size)) * n, cand_of, out=scratch(work, "tmp", key.size, np.int64),
+                    mode="clip")
     cand_tree = node_tree[cand_node]
-    row = data.order.ravel()[flat]
-    wi = row + np.repeat(cand_tree * n, size) if cand_tree[-1] > 0 else row
-    return _Segments(cand_node, cand_feat, cand_tree, np.cumsum(size) - size, cand_of,
-                     data.sorted_x.ravel()[flat], wi, row)
+    row = np.take(data.order.ravel(), flat, out=scratch(work, "row", key.size, data.order.dtype), mode="clip")
+    if cand_tree[-1] > 0:
+        wi = np.take(cand_tree * n, cand_of, out=scratch(work, "wi", key.size, np.int64), mode="clip")
+        wi += row
+    else:
+        wi = row
+    x = np.take(data.sorted_x.ravel(), flat, out=scratch(work, "x", key.size, np.float64), mode="clip")
+    return _Segments(cand_node, cand_feat, cand_tree, start, cand_of, x, wi, row)
 
 
-def _packed_keys(data: TrainingData, items: Items, cand_feat, ncand, first) -> NDArray[np.int64]:
+def _segment_ids(start, size, total: int, work: Workspace | None) -> NDArray[np.int64]:
+    """Segment (candidate) index of every element: ``np.repeat(arange(C), size)``, into a scratch buffer."""
+    if work is None or not np.all(size > 0):
+        return np.repeat(np.arange(size.size), size)
+    ids = work.get("cand_of", total, np.int64)
+    ids[:] = 0
+    ids[start[1:]] = 1
+    return np.cumsum(ids, out=ids)
+
+
+def _packed_keys(data: TrainingData, items: Items, cand_feat, ncand, first,
+                 work: Workspace | None = None) -> NDArray[np.int64]:
     """``candidate * n + rank[row, feature]`` for every (item, candidate of its node) pair."""
     n, p = data.rows, data.features
     rank = data.rank.ravel()
     m = int(ncand[0])
     if m and np.all(ncand == m):
-        feat = cand_feat.reshape(-1, m)[items.node]
-        feat += (items.row * p)[:, None]
-        key = (first[items.node] * n)[:, None] + np.arange(0, m * n, n)
-        key += rank[feat]
+        # slot-major (m, N): long inner loops; the order before the sort does not matter (keys are distinct)
+        N = items.row.size
+        by_slot = cand_feat.reshape(-1, m)
+        row_base = np.multiply(items.row, p, out=scratch(work, "row_base", N, np.int64))
+        node_base = np.take(first * n, items.node, out=scratch(work, "node_base", N, np.int64), mode="clip")
+        key = scratch(work, "key", m * N, np.int64).reshape(m, N)
+        feat = scratch(work, "feat", N, np.int64)
+        ranks = scratch(work, "rank", N, rank.dtype)
+        for j in range(m):
+            np.take(by_slot[:, j], items.node, out=feat, mode="clip")
+            feat += row_base
+            np.add(node_base, np.take(rank, feat, out=ranks, mode="clip"), out=key[j])
+            if j:
+                key[j] += j * n
         return key.ravel()
     reps = ncand[items.node]
     pair_item = np.repeat(np.arange(items.row.size), reps)
@@ -229,19 +267,19 @@ def _missing_totals(seg: _Segments, elem: NDArray[np.float64]) -> NDArray[np.flo
                      for channel in elem])
 
 
-def _running_sums(stats: NDArray[np.float64], seg: _Segments):
+def _running_sums(stats: NDArray[np.float64], seg: _Segments, cs: NDArray[np.float64] | None = None):
     """Running sums of the statistics restarted at every segment, and each segment's total.
 
     Each segment start gets the previous segment's total subtracted so one ``cumsum`` per tree restarts near
     zero (rounding stays at the scale of one segment); sums never cross trees, so a tree's arithmetic does
-    not depend on its batch. ``stats`` is modified in place.
+    not depend on its batch. ``stats`` is modified in place; ``cs``, if given, receives the running sums.
     """
     totals = np.add.reduceat(stats, seg.start, axis=1)
     tree_first = np.ones(seg.start.size, dtype=bool)
     tree_first[1:] = seg.cand_tree[1:] != seg.cand_tree[:-1]
     restart = np.flatnonzero(~tree_first)
     stats[:, seg.start[restart]] -= totals[:, restart - 1]
-    cs = np.empty_like(stats)
+    cs = np.empty_like(stats) if cs is None else cs
     bounds = np.append(seg.start[tree_first], stats.shape[1])
     for lo, hi in zip(bounds[:-1], bounds[1:]):
         np.cumsum(stats[:, lo:hi], axis=1, out=cs[:, lo:hi])

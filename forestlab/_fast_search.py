@@ -1,0 +1,152 @@
+"""Fast paths of the exact best-split search for the built-in splitters (no missing values or categories).
+
+Both score every element of the sorted segments and mask the boundaries that are no valid cut, which saves
+the gathers at the cuts, and keep their large temporaries in the batch's scratch buffers.
+
+*Two classes* (Gini or entropy, no case weights): every summed statistic is
+an integer count, so the two channels the search needs, the bootstrap weight ``W`` and the class-1 count
+``c1``, travel packed in one int64 (``W + c1 * 2**32``): one gather, one integer ``cumsum`` (exact, so in any
+order), and ``c0 = W - c1``. The impurities are then computed from the same float values, with the same
+operations in the same order, as the generic path, so the chosen splits and their scores are bit-identical.
+
+*Squared error*: the generic running sums (same calls, same order) and the splitter's operations in its
+order, on channel-major arrays instead of transposed views; bit-identical as well.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ._presort import TrainingData
+from ._splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
+from ._workspace import Workspace, scratch
+
+__all__ = ["binary_statistics", "binary_best_splits", "squared_error_best_splits"]
+
+_LOW = np.int64(0xFFFFFFFF)
+
+
+def binary_statistics(data: TrainingData, splitter: CartSplitter,
+                      counts: NDArray[np.uint8]) -> NDArray[np.int64] | None:
+    """Packed ``W + c1 * 2**32`` per (slot, row), flat ``(B*n,)``; None when the fast path does not apply."""
+    if (type(splitter) not in (GiniSplitter, EntropySplitter) or data.classes != 2 or data.weights is not None
+            or data.missing or data.category_words or data.stats.shape[1] != 3):
+        return None
+    w = counts.astype(np.int64)
+    return (w + ((w * (data.target == 1)) << 32)).ravel()
+
+
+def _weighted_impurity(entropy: bool, W, c1, out, tmp):
+    """``W * i`` for Gini or entropy of ``[W, W - c1, c1]``, with the built-in splitters' operations in their
+    order (so bit-identical to them); written to ``out``, ``tmp`` is scratch."""
+    p0 = np.divide(np.subtract(W, c1, out=out), W, out=out)
+    p1 = np.divide(c1, W, out=tmp)
+    if entropy:
+        s = np.multiply(p0, np.log(np.where(p0 > 0.0, p0, 1.0)), out=p0)
+        s += p1 * np.log(np.where(p1 > 0.0, p1, 1.0))
+        np.negative(s, out=s)
+    else:
+        s = np.multiply(p0, p0, out=p0)
+        s += np.multiply(p1, p1, out=p1)
+        np.subtract(1.0, s, out=s)
+    np.maximum(s, 0.0, out=s)
+    s *= W
+    return s
+
+
+def _unpack(v, work: Workspace | None, names: tuple[str, str]):
+    """(W, c1) of packed values, as float64 (scratch) arrays."""
+    part = np.bitwise_and(v, _LOW, out=scratch(work, "unpacked", v.size, np.int64))
+    w = scratch(work, names[0], v.size, np.float64)
+    w[...] = part
+    np.right_shift(v, 32, out=part)
+    c = scratch(work, names[1], v.size, np.float64)
+    c[...] = part
+    return w, c
+
+
+def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, parent, out, tie: float,
+                       work: Workspace | None = None):
+    """Fill ``out`` (a ``Splits``) with the best split of every node of the sorted segments ``seg``."""
+    L = seg.x.size
+    elem = np.take(packed, seg.wi, out=scratch(work, "elem", L, np.int64), mode="clip")
+    total = np.add.reduceat(elem, seg.start)
+    elem[seg.start[1:]] -= total[:-1]
+    left = np.cumsum(elem, out=elem)
+    right = np.take(total, seg.cand_of, out=scratch(work, "right", L, np.int64), mode="clip")
+    right -= left
+    entropy = type(splitter) is EntropySplitter
+    with np.errstate(divide="ignore", invalid="ignore"):
+        wl, cl = _unpack(left, work, ("wl", "cl"))
+        wr, cr = _unpack(right, work, ("wr", "cr"))
+        score = np.take(parent[seg.cand_node], seg.cand_of, out=scratch(work, "score", L, np.float64), mode="clip")
+        tmp = scratch(work, "tmp1", L, np.float64)
+        score -= _weighted_impurity(entropy, wl, cl, scratch(work, "imp", L, np.float64), tmp)
+        score -= _weighted_impurity(entropy, wr, cr, scratch(work, "imp", L, np.float64), tmp)
+    return _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr)
+
+
+def squared_error_applies(splitter: CartSplitter, data: TrainingData) -> bool:
+    """Whether :func:`squared_error_best_splits` may replace the generic search."""
+    return type(splitter) is SquaredErrorSplitter and not data.missing and not data.category_words
+
+
+def squared_error_best_splits(seg, min_leaf: float, lightest: float, stats, parent, out, tie: float,
+                              work: Workspace | None, running_sums):
+    """As :func:`binary_best_splits` for the squared-error splitter; ``running_sums`` is the generic one."""
+    L = seg.x.size
+    elem = np.take(stats, seg.wi, axis=1, out=scratch(work, "elem3", 3 * L, np.float64).reshape(3, L),
+                   mode="clip")
+    left, totals = running_sums(elem, seg, scratch(work, "cs3", 3 * L, np.float64).reshape(3, L))
+    right = np.take(totals, seg.cand_of, axis=1, out=elem, mode="clip")
+    right -= left
+    with np.errstate(divide="ignore", invalid="ignore"):
+        score = np.take(parent[seg.cand_node], seg.cand_of, out=scratch(work, "score", L, np.float64), mode="clip")
+        tmp = scratch(work, "tmp1", L, np.float64)
+        score -= _weighted_variance(left, scratch(work, "imp", L, np.float64), tmp)
+        score -= _weighted_variance(right, scratch(work, "imp", L, np.float64), tmp)
+    return _pick(seg, min_leaf, lightest, parent, out, tie, work, score, left[0], right[0])
+
+
+def _weighted_variance(S, out, tmp):
+    """``W * i`` of the squared-error splitter on channel-major ``S``, its operations in its order."""
+    mean = np.divide(S[1], S[0], out=tmp)
+    v = np.divide(S[2], S[0], out=out)
+    v -= np.multiply(mean, mean, out=mean)
+    np.maximum(v, 0.0, out=v)
+    v *= S[0]
+    return v
+
+
+def _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr):
+    """Mask the invalid boundaries, then record the first best-scoring cut of every node in ``out``."""
+    L = seg.x.size
+    valid = scratch(work, "valid", L, np.bool_)
+    np.greater(seg.x[1:], seg.x[:-1], out=valid[:-1])
+    valid[-1] = False
+    valid[seg.start[1:] - 1] = False
+    if min_leaf > lightest:
+        valid &= (wl >= min_leaf) & (wr >= min_leaf)
+    np.copyto(score, -np.inf, where=~valid)
+    new_node = np.r_[True, seg.cand_node[1:] != seg.cand_node[:-1]]
+    node_first = np.flatnonzero(new_node)
+    nodes = seg.cand_node[node_first]
+    starts = seg.start[node_first]
+    best = np.maximum.reduceat(score, starts)
+    with np.errstate(invalid="ignore"):
+        bar = best - tie * np.maximum(np.abs(best), np.abs(parent[nodes]))
+    node_of = np.take(np.cumsum(new_node) - 1, seg.cand_of, out=scratch(work, "node_of", L, np.int64), mode="clip")
+    barred = np.take(bar, node_of, out=scratch(work, "tmp1", L, np.float64), mode="clip")
+    tied = np.flatnonzero(np.greater_equal(score, barred, out=valid))
+    pick = tied[np.searchsorted(tied, starts)]
+    found = best > -np.inf
+    nodes, pick = nodes[found], pick[found]
+    lo, hi = seg.x[pick], seg.x[pick + 1]
+    threshold = 0.5 * lo + 0.5 * hi
+    out.found[nodes] = True
+    out.feature[nodes] = seg.cand_feat[seg.cand_of[pick]]
+    out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
+    out.decrease[nodes] = score[pick]
+    out.missing_left[nodes] = wl[pick] >= wr[pick]
+    return out
