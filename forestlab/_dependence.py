@@ -58,7 +58,7 @@ def partial_dependence(forest: Any, feature: Any, grid: Any = None, *, X: Any = 
                        ice: bool = False, points: int = 25) -> Dependence:
     """Partial dependence of a fitted forest's prediction; see :meth:`Forest.partial_dependence`."""
     data, _ = analysis_X(forest, X)
-    features = _check_features(feature, data.shape[1])
+    features = _check_features(feature, data.shape[1], getattr(forest, "feature_names", None))
     if not isinstance(ice, (bool, np.bool_)):
         raise TypeError(f"`ice` must be True or False; got {type(ice).__name__}")
     if ice and len(features) != 1:
@@ -76,13 +76,17 @@ def partial_dependence(forest: Any, feature: Any, grid: Any = None, *, X: Any = 
                       label=None if code is None else np.asarray(forest.classes[code]).item())
 
 
-def _check_features(feature: Any, p: int) -> tuple[int, ...]:
+def _check_features(feature: Any, p: int, names: tuple[str, ...] | None = None) -> tuple[int, ...]:
     items = list(feature) if isinstance(feature, (tuple, list, np.ndarray)) else [feature]
     if not 1 <= len(items) <= 2:
         raise ValueError(f"`feature` must be one column or a pair of columns; got {len(items)}")
-    for f in items:
+    for k, f in enumerate(items):
+        if isinstance(f, str):
+            if names is None or f not in names:
+                raise ValueError(f"`feature` names an unknown column {f!r}; known: {list(names or ())[:10]}")
+            items[k] = f = names.index(f)
         if isinstance(f, (bool, np.bool_)) or not isinstance(f, numbers.Integral):
-            raise TypeError(f"`feature` must be an int column index (or a pair); got {type(f).__name__}")
+            raise TypeError(f"`feature` must be a column name or int index (or a pair); got {type(f).__name__}")
         if not 0 <= f < p:
             raise ValueError(f"`feature` = {f} is out of range for {p} features")
     if len(items) == 2 and items[0] == items[1]:

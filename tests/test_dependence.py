@@ -28,8 +28,12 @@ class TestPartialDependenceValidation:
         forest, X = regression
         with pytest.raises(ValueError, match="`feature` = 10 is out of range for 10 features"):
             forest.partial_dependence(10)
-        with pytest.raises(TypeError, match="`feature` must be an int column index"):
+        with pytest.raises(TypeError, match="`feature` must be a column name or int index"):
             forest.partial_dependence(1.5)
+        with pytest.raises(ValueError, match="`feature` names an unknown column 'speed'; known: \\['x0', 'x1'"):
+            forest.partial_dependence("speed")
+        np.testing.assert_array_equal(forest.partial_dependence("x3", points=5).average,
+                                      forest.partial_dependence(3, points=5).average)
         with pytest.raises(ValueError, match="one column or a pair"):
             forest.partial_dependence((0, 1, 2))
         with pytest.raises(ValueError, match="two different columns"):
