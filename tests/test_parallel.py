@@ -333,3 +333,28 @@ def _session_members(sid: int) -> list[int]:
             if int(stat[3]) == sid and stat[0] != "Z":
                 out.append(int(entry.name))
     return out
+
+
+class TestDask:
+    def test_local_cluster_gives_the_same_forest(self, tmp_path):
+        pytest.importorskip("dask")
+        distributed = pytest.importorskip("distributed")
+        X, y = _problem()
+        ref = fl.Forest(trees=18, rng=5).fit(X, y)
+        held = []
+        with distributed.LocalCluster(n_workers=2, processes=True, threads_per_worker=1, host="127.0.0.1",
+                                      dashboard_address=None) as cluster, distributed.Client(cluster) as client:
+
+            def progress(done, total):
+                if done and not held:  # mid-fit: what does every cluster worker hold?
+                    held.append(client.run(lambda dask_worker: sorted(
+                        type(v).__name__ for v in dask_worker.data.values() if type(v).__name__ == "TrainingData")))
+
+            forest = fl.Forest(trees=18, rng=5, executor=client.get_executor(), progress=progress).fit(X, y)
+            failing = fl.Forest(trees=18, rng=5, executor=client.get_executor(),
+                                sampler=Misbehaving(os.getpid(), "raise", str(tmp_path)))
+            with pytest.raises(fl.TreeGrowthError, match=r"\(block \d+ of \d+\) failed in a worker: ValueError: boom"):
+                failing.fit(X, y)
+        _assert_same_forest(ref, forest)
+        # the training data were sent once to each of the two workers, not once per block
+        assert list(held[0].values()) == [["TrainingData"], ["TrainingData"]]
