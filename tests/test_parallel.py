@@ -196,6 +196,15 @@ class TestInvariance:
             assert all(a.threshold.tobytes() == b.threshold.tobytes() for a, b in zip(ref._trees, trees))
 
 
+    def test_missing_values_and_categories_travel_too(self):
+        X, y = _problem(n=200)
+        X[::7, 1] = np.nan
+        X[:, 2] = np.floor(np.abs(X[:, 2]) * 3)  # a categorical column with a handful of codes
+        ref = fl.Forest(trees=8, rng=4, categorical=[2]).fit(X, y)
+        assert ref._data.missing and ref._data.categories is not None
+        _assert_same_forest(ref, fl.Forest(trees=8, rng=4, categorical=[2], workers=2).fit(X, y))
+
+
 class TestProgress:
     def test_callback_counts_trees_in_this_thread(self):
         X, y = _problem()
