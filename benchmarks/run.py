@@ -340,9 +340,10 @@ def simd() -> dict:
         from numpy.core import _multiarray_umath as core
     found = [f for f in core.__cpu_dispatch__ if core.__cpu_features__.get(f)]
     missing = [f for f in core.__cpu_dispatch__ if not core.__cpu_features__.get(f)]
-    # x86-simd-sort serves np.sort / argsort of 32- and 64-bit keys on AVX512_SKX (and AVX2 since NumPy 2.0),
-    # 16-bit keys on AVX512_ICL / AVX512_SPR.
-    sort = [f for f in ("AVX512_SPR", "AVX512_ICL", "AVX512_SKX", "AVX2") if f in found]
+    # x86-simd-sort serves np.sort / argsort of 32- and 64-bit keys on AVX512_SKX (NumPy >= 2.4 calls that level
+    # X86_V4) and on AVX2 (X86_V3) since NumPy 2.0; 16-bit keys on AVX512_ICL / AVX512_SPR.
+    have = set(found) | set(core.__cpu_baseline__)
+    sort = [f for f in ("AVX512_SPR", "AVX512_ICL", "X86_V4", "AVX512_SKX", "X86_V3", "AVX2") if f in have]
     return {"simd_baseline": list(core.__cpu_baseline__), "simd_found": found, "simd_not_found": missing,
             "sort_kernels": sort}
 
@@ -397,11 +398,30 @@ def table(results, mode, yardstick_note) -> str:
     return "\n".join(lines)
 
 
+def results_markdown(results) -> str:
+    """The table with the machine it was measured on, as benchmarks/RESULTS.md has it."""
+    m = results["machine"]
+    lines = [
+        f"## {results['mode']} run of {m['date']}", "",
+        f"- machine: {m['cpu']}, {m['cores']} cores; {m['platform']}; load average at start "
+        f"{', '.join(f'{x:.2f}' for x in m['load_average'] or [])}",
+        f"- Python {m['python']}, NumPy {m['numpy']}, forestlab {m['forestlab']}",
+        f"- NumPy SIMD extensions found: {', '.join(m['simd_found']) or 'none'}; not found: "
+        f"{', '.join(m['simd_not_found']) or 'none'}",
+        f"- sort kernels: np.sort / argsort dispatch to x86-simd-sort on "
+        f"{', '.join(m['sort_kernels']) or 'none of AVX512_SPR, AVX512_ICL, AVX512_SKX, AVX2 (plain sort)'}",
+        f"- median of {results['repeats']} runs per timing; C and forestlab runs alternate", "",
+        results["table"], "",
+    ]
+    return "\n".join(lines)
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("--quick", action="store_true", help="smaller sizes of every row")
     ap.add_argument("--repeats", type=int, default=3, help="runs per timing (median; default 3)")
     ap.add_argument("--json", help="also write the results to this file")
+    ap.add_argument("--results", help="also write the table and machine as Markdown to this file")
     ap.add_argument("--memory-child", help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.memory_child:
@@ -436,6 +456,8 @@ def main() -> None:
     stamp = dt.datetime.now().strftime("%Y%m%d-%H%M%S")
     for path in [OUT / f"{mode}-{stamp}.json", OUT / f"{mode}-latest.json"] + ([Path(args.json)] if args.json else []):
         path.write_text(json.dumps(results, indent=1, default=str))
+    if args.results:
+        Path(args.results).write_text(results_markdown(results))
     log(f"written: {OUT / f'{mode}-{stamp}.json'}")
 
 
