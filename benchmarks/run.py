@@ -205,9 +205,10 @@ def bench_fit(row, yardstick, repeats, log):
         ours.append(seconds)
         nodes = forest_bytes(forest)
         del forest
-        log(f"  {label}: run {r + 1}: forestlab {seconds:.2f} s" + (f", yardstick {theirs[-1]:.2f} s" if theirs else ""))
-    out = {"label": label, "forestlab_s": ours, "yardstick_s": theirs, "forestlab_median_s": statistics.median(ours),
-           "bytes_per_node": nodes[0] / nodes[1]}
+        c_text = f", yardstick {theirs[-1]:.2f} s" if theirs else ""
+        log(f"  {label}: run {r + 1}: forestlab {seconds:.2f} s{c_text}")
+    out = {"label": label, "key": (name, n, p, m, trees, min_leaf), "forestlab_s": ours, "yardstick_s": theirs,
+           "forestlab_median_s": statistics.median(ours), "bytes_per_node": nodes[0] / nodes[1]}
     if theirs:
         out["yardstick_median_s"] = statistics.median(theirs)
         out["ratio"] = out["forestlab_median_s"] / out["yardstick_median_s"]
@@ -240,10 +241,10 @@ def _read_oob(forest):
 def bench_oob(spec, repeats, log):
     import copy
 
+    if not hasattr(fl.Forest, "oob"):
+        return {"skipped": "Forest has no `oob` yet"}
     data = make_data("twonorm", spec["n"], spec["p"])
     fit_s, forest = fit_forestlab(data, int(math.sqrt(spec["p"])), spec["trees"], 1)
-    if not hasattr(type(forest), "oob") and not hasattr(forest, "oob"):
-        return {"skipped": "Forest has no `oob` yet", "fit_s": fit_s}
     times = []
     for _ in range(repeats):
         fresh = copy.copy(forest)  # the first access on each copy (a cached result is not reused)
@@ -294,11 +295,16 @@ def bench_memory(spec, log):
 
 
 def bench_growth(spec, repeats, fits, log):
+    """Fit time at two n; a fit row of the same size is reused rather than run again."""
     out = {}
     for key in ("small", "large"):
         n = spec[key]
-        data = make_data("twonorm", n, spec["p"])
-        times = [fit_forestlab(data, 3, spec["trees"], 1)[0] for _ in range(repeats)]
+        same = [f for f in fits if f["key"] == ("twonorm", n, spec["p"], 3, spec["trees"], 1)]
+        if same:
+            times = same[0]["forestlab_s"]
+        else:
+            data = make_data("twonorm", n, spec["p"])
+            times = [fit_forestlab(data, 3, spec["trees"], 1)[0] for _ in range(repeats)]
         out[key] = {"n": n, "seconds": times, "median_s": statistics.median(times)}
         log(f"  growth: n={n}: {out[key]['median_s']:.2f} s")
     out["factor"] = out["large"]["median_s"] / out["small"]["median_s"]
