@@ -140,6 +140,24 @@ def start_method() -> str:
     return "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else "spawn"
 
 
+_preload_asked = False
+
+
+def _worker_context() -> multiprocessing.context.BaseContext:
+    """The context of our own pools; the fork server (started once per process) preloads NumPy and forestlab.
+
+    Workers forked from it start in milliseconds instead of re-importing NumPy (about 0.4 s a fit). The
+    preload list is set only once and only adds to the default (``__main__``); it has no effect if the fork
+    server was already running.
+    """
+    global _preload_asked
+    context = multiprocessing.get_context(start_method())
+    if context.get_start_method() == "forkserver" and not _preload_asked:
+        context.set_forkserver_preload(["__main__", __name__])
+        _preload_asked = True
+    return context
+
+
 # ------------------------------------------------------------------------------------------- planning
 def plan_blocks(ids: Sequence[int], batch: int, parallelism: int = 1) -> list[list[int]]:
     """Cut ``ids`` into consecutive blocks of at most ``batch`` trees, at least ``BLOCKS_PER_WORKER`` per worker."""
@@ -204,7 +222,7 @@ def _run_here(data, rules, root, blocks, report) -> list[Grown]:
 
 
 def _run_own_pool(data, rules, root, blocks, report, workers: int) -> list[Grown]:
-    context = multiprocessing.get_context(start_method())
+    context = _worker_context()
     with _shared.SharedTrainingData(data) as handle, _shared.BlockBoard(len(blocks)) as board:
         pool = ProcessPoolExecutor(min(workers, len(blocks)), mp_context=context, initializer=_init_worker,
                                    initargs=(os.getpid(),))
