@@ -5,6 +5,7 @@ from ._dependence import Dependence as Dependence
 from ._forest import Forest as Forest
 from ._importance import Importance as Importance
 from ._modelcheck import ModelFileError as ModelFileError
+from ._parallel import TreeGrowthError as TreeGrowthError
 from ._persist import StoredComponent as StoredComponent
 from ._persist import load as load
 from ._proximity import ProximityMap as ProximityMap
@@ -52,6 +53,7 @@ __all__ = [
     "SquaredErrorSplitter",
     "StoredComponent",
     "Tree",
+    "TreeGrowthError",
     "TreeSubspace",
     "classical_scaling",
     "cross_validated_error",

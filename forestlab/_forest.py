@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 import dataclasses
+from concurrent.futures import Executor
 from os import PathLike
 from typing import Any
 
@@ -20,6 +21,7 @@ from ._grow import GrowthRules, grow_batch
 from ._importance import Importance
 from ._oob import out_of_bag
 from ._persist import MSG_NO_DATA, growth_blocker, save_forest
+from ._parallel import grow_trees
 from ._presort import TrainingData, presort
 from ._proximity import ProximityMap
 from ._results import OutOfBag
@@ -40,7 +42,7 @@ MAX_BATCH = 64
 
 _DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "depth_limit": None,
              "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None,
-             "balance": None, "class_weights": None}
+             "balance": None, "class_weights": None, "executor": None, "progress": None}
 
 
 
@@ -80,7 +82,10 @@ class Forest:
         None infers the task: float targets give regression, anything else (ints, strings, bools)
         classification; a splitter's own task takes precedence over the inference.
     workers : int, default 1
-        Local processes to grow trees in.
+        Local processes to grow trees in. With more than one, the training data are put once in shared memory
+        and read by every worker (nothing big is copied or pickled per tree); the processes are started with
+        the ``forkserver`` method (``spawn`` where there is none), so a script that fits with
+        ``workers > 1`` needs the usual ``if __name__ == "__main__":`` guard.
     categorical : sequence of int or str, optional
         Features (positions, or column names) whose values are category labels rather than quantities.
         A split on one sends a subset of its categories left, found exactly for two classes and for
@@ -94,6 +99,15 @@ class Forest:
         Weight of each class in every sum of the splitter (split scores, ``min_leaf``, leaf values),
         multiplied into the case weights: a dict label -> positive weight (unlisted classes weigh 1), or
         ``"balanced"`` for ``n / (K * n_k)`` with ``n_k`` the cases of class ``k``.
+    executor : concurrent.futures.Executor or None
+        Grow the trees on this executor instead: a ``ProcessPoolExecutor`` or ``ThreadPoolExecutor`` of your
+        own, or a dask distributed client's ``client.get_executor()`` to fit on a cluster (the data then
+        travel once to every cluster worker). Exclusive with ``workers``. Trees go out in blocks; a block
+        that fails stops the fit with a :class:`TreeGrowthError` naming its trees.
+    progress : None, bool or callable
+        ``progress(done, total)`` is called in the fitting thread with the number of trees grown so far,
+        once with ``done = 0`` and after every block; raising from it stops the fit. True writes a plain
+        progress line to stderr instead.
 
     Attributes
     ----------
@@ -145,9 +159,11 @@ class Forest:
                  depth_limit: int | None = None, sample_size: int | float | None = None, replace: bool = True,
                  rng: Any = None, task: str | None = None, workers: int = 1,
                  categorical: Sequence[int | str] | None = None, balance: str | None = None,
-                 class_weights: dict | str | None = None) -> None:
+                 class_weights: dict | str | None = None, executor: Executor | None = None,
+                 progress: bool | Callable[[int, int], object] | None = None) -> None:
         self._settings: Settings = check_settings(trees, sampler, splitter, min_leaf, depth_limit, sample_size,
-                                                  replace, task, workers, categorical, balance, class_weights)
+                                                  replace, task, workers, categorical, balance, class_weights,
+                                                  executor, progress)
         check_rng(rng)
         self._rng = rng
         self._trees: list[Tree] = []
@@ -211,7 +227,8 @@ class Forest:
                  "depth_limit": self._settings.depth_limit, "sample_size": self._settings.sample_size,
                  "replace": self._settings.replace, "rng": self._rng, "task": self._settings.task,
                  "workers": self._settings.workers, "categorical": self._settings.categorical,
-                 "balance": self._settings.balance, "class_weights": self._settings.class_weights}
+                 "balance": self._settings.balance, "class_weights": self._settings.class_weights,
+                 "executor": self._settings.executor, "progress": self._settings.progress}
         if repr(given["sampler"]) == "RandomSubset(None)":
             given["sampler"] = None
         shown = [f"{k}={v!r}" for k, v in given.items() if v is not _DEFAULTS[k] and v != _DEFAULTS[k]]
@@ -339,13 +356,13 @@ class Forest:
 
     def _grow(self, tree_ids: range) -> tuple[list[Tree], NDArray[np.uint8]]:
         """Grow the trees with the given spawn indices, in batches sized by the number of cases."""
-        ids = list(tree_ids)
+        blocker = growth_blocker(self)
+        if blocker is not None or self._data is None:
+            raise RuntimeError(blocker or MSG_NO_DATA)
         batch = max(1, min(MAX_BATCH, BATCH_ITEMS // self._data.rows))
-        trees: list[Tree] = []
-        counts: list[NDArray[np.uint8]] = []
-        for start in range(0, len(ids), batch):
-            trees += self._grow_checked(ids[start:start + batch], counts)
-        return trees, np.concatenate(counts)
+        s = self._settings
+        return grow_trees(self._data, self._rules, self.seed, tree_ids, batch, workers=s.workers,
+                          executor=s.executor, progress=s.progress)
 
     def _grow_checked(self, ids: list[int], counts: list[NDArray[np.uint8]]) -> list[Tree]:
         """``grow_batch`` for the given trees (their in-bag counts appended to ``counts``)."""

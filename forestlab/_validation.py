@@ -5,6 +5,7 @@ Messages name the argument in backticks and state the rule, so the text is stabl
 
 from __future__ import annotations
 
+import concurrent.futures
 import numbers
 import warnings
 from dataclasses import dataclass
@@ -40,6 +41,8 @@ class Settings:
     categorical: tuple[int | str, ...] | None = None
     balance: str | None = None
     class_weights: dict | str | None = None
+    executor: concurrent.futures.Executor | None = None
+    progress: Any = None
 
 
 def _int_at_least(value: Any, name: str, low: int) -> int:
@@ -149,14 +152,44 @@ def resolve_categorical(spec: tuple[int | str, ...] | None, features: int,
     return sorted(set(positions) | set(extra))
 
 
+MSG_WORKERS_AND_EXECUTOR = (
+    "`workers` and `executor` are exclusive: give `workers` to grow trees in that many local processes, or "
+    "`executor` to grow them on an executor of your own (a cluster's included), not both; got workers={} "
+    "and executor={!r}"
+)
+
+
+def _check_executor(executor: Any, workers: int) -> concurrent.futures.Executor | None:
+    if executor is None:
+        return None
+    if isinstance(executor, type) and issubclass(executor, concurrent.futures.Executor):
+        raise TypeError(f"`executor` must be an executor instance such as {executor.__name__}(); got the class")
+    if not isinstance(executor, concurrent.futures.Executor):
+        raise TypeError("`executor` must be a concurrent.futures.Executor (a ProcessPoolExecutor, a "
+                        f"ThreadPoolExecutor, a dask client's get_executor(), ...) or None; got "
+                        f"{type(executor).__name__}")
+    if workers != 1:
+        raise ValueError(MSG_WORKERS_AND_EXECUTOR.format(workers, executor))
+    return executor
+
+
+def _check_progress(progress: Any) -> Any:
+    if progress is None or isinstance(progress, bool) or callable(progress):
+        return progress
+    raise TypeError("`progress` must be None, True (a progress line on stderr) or a callable "
+                    f"progress(done, total); got {type(progress).__name__}")
+
+
 def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth_limit: Any,
                    sample_size: Any, replace: Any, task: Any, workers: Any, categorical: Any = None,
-                   balance: Any = None, class_weights: Any = None) -> Settings:
+                   balance: Any = None, class_weights: Any = None, executor: Any = None,
+                   progress: Any = None) -> Settings:
     """Validate the Forest constructor arguments."""
     if task is not None and task not in TASKS:
         raise ValueError(f"`task` must be one of {sorted(TASKS)} or None; got {task!r}")
     if not isinstance(replace, (bool, np.bool_)):
         raise TypeError(f"`replace` must be a bool; got {type(replace).__name__}")
+    workers = _int_at_least(workers, "workers", 1)
     settings = Settings(
         trees=_int_at_least(trees, "trees", 1),
         sampler=_check_sampler(sampler),
@@ -166,10 +199,12 @@ def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth
         sample_size=_check_sample_size(sample_size),
         replace=bool(replace),
         task=task,
-        workers=_int_at_least(workers, "workers", 1),
+        workers=workers,
         categorical=_check_categorical(categorical),
         balance=check_balance(balance),
         class_weights=check_class_weights(class_weights),
+        executor=_check_executor(executor, workers),
+        progress=_check_progress(progress),
     )
     if task == "regression" and (settings.balance is not None or settings.class_weights is not None):
         raise ValueError("`balance` and `class_weights` are for classification, but `task` is 'regression'")

@@ -16,6 +16,7 @@ import pytest
 
 import forestlab as fl
 import forestlab._forest as forest_module
+import forestlab._parallel as parallel_module
 
 FIELDS = ("feature", "threshold", "left", "right", "value", "cases", "impurity_decrease", "depth")
 
@@ -150,13 +151,13 @@ class TestBatching:
     def test_batch_sizes_1_3_64_give_the_same_forest(self, monkeypatch, task, sampler):
         X, y = small_problem(task, n=50)
         batches = []
-        original = forest_module.grow_batch
+        original = parallel_module.grow_batch
 
         def spy(data, rules, seeds):
             batches.append(len(seeds))
             return original(data, rules, seeds)
 
-        monkeypatch.setattr(forest_module, "grow_batch", spy)
+        monkeypatch.setattr(parallel_module, "grow_batch", spy)
         monkeypatch.setattr(forest_module, "BATCH_ITEMS", 10**9)
         forests = {}
         for size in (1, 3, 64):
