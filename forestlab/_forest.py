@@ -242,8 +242,17 @@ class Forest:
         :attr:`feature_names`). ``weights`` (n,) are optional case weights, finite and non-negative: a
         case drawn ``c`` times weighs ``c * weight`` in every split score, in ``min_leaf``, in the leaf values
         and in the out-of-bag error; a case of weight 0 takes no part in growing. :attr:`inbag` keeps the
-        unweighted draw counts. Refitting replaces every tree.
+        unweighted draw counts. Refitting replaces every tree; a fit that fails leaves the forest as it was.
         """
+        previous = dict(self.__dict__)
+        try:
+            return self._fit(X, y, weights)
+        except BaseException:
+            self.__dict__.clear()
+            self.__dict__.update(previous)
+            raise
+
+    def _fit(self, X: ArrayLike, y: ArrayLike, weights: ArrayLike | None) -> Forest:
         values, names, labels = read_table(X)
         X = check_X(values)
         if X.shape[0] < 2:

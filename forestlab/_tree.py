@@ -61,6 +61,11 @@ class Tree:
         for f in fields(self):
             getattr(self, f.name).flags.writeable = False
 
+    def __setstate__(self, state: dict) -> None:
+        """Unpickled trees (e.g. from worker processes) are read-only again."""
+        self.__dict__.update(state)
+        self.__post_init__()
+
     @property
     def nodes(self) -> int:
         """Number of nodes."""

@@ -293,7 +293,7 @@ def _encode_classes(arr: NDArray) -> Target:
         raise TypeError("`y` labels must be mutually comparable (e.g. all strings or all numbers)") from None
     if classes.size == 1:
         warnings.warn(f"`y` holds a single class ({classes[0].item()!r}); every tree will predict it",
-                      SingleClassWarning, stacklevel=4)
+                      SingleClassWarning, stacklevel=5)
     return Target("classification", codes.reshape(-1).astype(np.int64), classes)
 
 

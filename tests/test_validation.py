@@ -302,3 +302,25 @@ def test_no_stray_warnings_on_a_plain_fit(data):
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         fl.Forest(trees=3, rng=0).fit(*data).predict(data[0])
+
+
+def test_failed_refit_leaves_the_forest_as_it_was():
+    rng = np.random.default_rng(0)
+    X = rng.normal(size=(60, 3))
+    y = (X[:, 0] > 0).astype(int)
+    forest = fl.Forest(trees=5, rng=1).fit(X, y)
+    before = forest.predict(X)
+    bad_weights = np.zeros(60)
+    bad_weights[0] = 1.0          # every tree's sample holds only weight-0 cases, almost surely
+    with pytest.raises(ValueError):
+        forest.fit(X[:, :2], y, weights=bad_weights)
+    np.testing.assert_array_equal(forest.predict(X), before)
+    assert forest.features == 3
+
+
+def test_unpickled_trees_are_read_only():
+    import pickle
+    X = np.random.default_rng(0).normal(size=(40, 2))
+    tree = fl.Forest(trees=1, rng=0).fit(X, X[:, 0] > 0).tree(0)
+    again = pickle.loads(pickle.dumps(tree))
+    assert not again.feature.flags.writeable and not again.threshold.flags.writeable
