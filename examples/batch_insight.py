@@ -1,9 +1,10 @@
 """Why does the forest send a coating batch to rework?
 
 The same (fictional) coatings plant as ``batch_inspection.py``: seven process measurements and the pigment
-supplier per batch, and a lab grade, "pass" or "rework". Once the forest flags batches well, the process engineers ask which measurements
-drive the grade, how the rework risk moves with oven temperature and humidity, and which past batches look
-unlike the others of their grade (grading mistakes, or a process state worth a closer look).
+supplier per batch, and a lab grade, "pass" or "rework". Once the forest flags batches well, the process
+engineers ask which measurements drive the grade, how the rework risk moves with oven temperature and
+humidity, and which past batches look unlike the others of their grade (grading mistakes, or a process state
+worth a closer look).
 
 All data are invented by the seeded generator of ``batch_inspection.py``; run
 ``python examples/batch_insight.py`` (needs ``pip install 'forestlab[plot,frames]'``). The pictures go to

@@ -22,7 +22,7 @@ from ._importance import Importance
 from ._oob import out_of_bag
 from ._persist import MSG_NO_DATA, growth_blocker, save_forest
 from ._parallel import grow_trees
-from ._presort import TrainingData, presort
+from ._presort import presort
 from ._proximity import ProximityMap
 from ._results import OutOfBag
 from ._sampler import CandidateSampler

@@ -51,7 +51,8 @@ class ProximityMap:
 
     def __repr__(self) -> str:
         shares = ", ".join(f"{s:.1%}" for s in self.explained)
-        return f"ProximityMap(cases={self.coordinates.shape[0]}, dims={self.coordinates.shape[1]}, explained=[{shares}])"
+        cases, dims = self.coordinates.shape
+        return f"ProximityMap(cases={cases}, dims={dims}, explained=[{shares}])"
 
 
 def _check_bool(value: Any, name: str) -> bool:
@@ -89,12 +90,12 @@ def proximity_blocks(forest: Any, X: NDArray, oob: bool, block: int) -> Iterator
     inside = (forest.inbag == 0) if oob else None
     A = _leaf_indicator(forest, X, inside)
     AT = A.T.tocsr()
-    O = inside.astype(np.float64) if oob else None
+    both_out = inside.astype(np.float64) if oob else None
     for start in range(0, n, block):
         rows = slice(start, min(n, start + block))
         shared = (A[rows] @ AT).toarray()
         if oob:
-            both = O[:, rows].T @ O
+            both = both_out[:, rows].T @ both_out
             with np.errstate(divide="ignore", invalid="ignore"):
                 P = np.where(both > 0, shared / np.where(both > 0, both, 1.0), np.nan)
         else:

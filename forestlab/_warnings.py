@@ -6,7 +6,8 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 
 from __future__ import annotations
 
-__all__ = ["ForestlabWarning", "IncompleteForestWarning", "NeverOutOfBagWarning", "OverlapWarning", "SingleClassWarning"]
+__all__ = ["ForestlabWarning", "IncompleteForestWarning", "NeverOutOfBagWarning", "OverlapWarning",
+           "SingleClassWarning"]
 
 
 class ForestlabWarning(UserWarning):

@@ -28,7 +28,7 @@ def assert_same_forest(a, b):
 def assert_same_oob(a, b):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", fl.NeverOutOfBagWarning)   # few trees: some case may be always in-bag
-        a.oob, b.oob
+        a.oob, b.oob  # noqa: B018  (first access computes and warns)
     for name in ("coverage", "error_curve", "margins", "votes", "predictions", "residuals"):
         x, y = getattr(a.oob, name), getattr(b.oob, name)
         if x is None:

@@ -33,7 +33,8 @@ class TestBatchInspectionDemo:
     def test_key_lines(self, demo_run):
         out = demo_run.stdout
         assert "forest: 300 trees on 1500 batches x 8 measurements" in out
-        assert re.search(r"^.pigment_supplier. is categorical \(4 suppliers\); \d+ humidity readings are missing$", out, re.M)
+        supplier = r"^.pigment_supplier. is categorical \(4 suppliers\); \d+ humidity readings are missing$"
+        assert re.search(supplier, out, re.M)
         assert "classes (vote columns): ['pass', 'rework']" in out
         error = float(re.search(r"^error on 500 new batches: (0\.\d{3})$", out, re.M).group(1))
         # About 3% of grades are recorded wrongly on purpose, so the error cannot be near 0; a working forest

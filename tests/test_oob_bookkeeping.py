@@ -153,7 +153,7 @@ class TestOutOfBagResult:
         with pytest.raises(ValueError, match="`tolerance` must be a non-negative number"):
             oob.settles_at(-0.1)
         with pytest.raises(RuntimeError, match="not fitted yet"):
-            fl.Forest().oob
+            fl.Forest().oob  # noqa: B018
 
     def test_never_out_of_bag_cases_warn_and_are_left_out(self):
         # Common practice: with B trees a case is never OOB with probability about (1 - 1/e)^B.

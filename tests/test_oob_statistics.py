@@ -103,9 +103,10 @@ def test_correlation_falls_as_fewer_candidates_are_offered():
 @pytest.mark.slow
 def test_flipped_labels_rank_near_the_top_of_doubtful():
     # Common practice: cases whose OOB vote goes against their label are the first candidates for label
-    # errors. Twonorm (Breiman 1996, tech. report 460) with 5% of the labels flipped on purpose. Measured recall of the top 30 doubtful cases: 0.80, 0.80, 0.87
-    # (seeds 1-3); every wrong-vote case (margin < 0) list caught 93-97% of the flips. Bayes error 2.3%, so
-    # a few flips land on the "right" side of the boundary and cannot be found.
+    # errors. Twonorm (Breiman 1996, tech. report 460) with 5% of the labels flipped on purpose. Measured recall
+    # of the top 30 doubtful cases: 0.80, 0.80, 0.87 (seeds 1-3); the list of every wrong-vote case (margin < 0)
+    # caught 93-97% of the flips. Bayes error 2.3%, so a few flips land on the "right" side of the boundary and
+    # cannot be found.
     X, y = twonorm(600, rng=1)
     flipped = np.random.default_rng(11).choice(600, size=30, replace=False)
     y = y.copy()

@@ -289,7 +289,7 @@ class TestFailures:
 
     def test_ctrl_c_in_a_real_process(self, tmp_path):
         """SIGINT to the whole process group, as a terminal's Ctrl-C sends it."""
-        script = textwrap.dedent(f"""
+        script = textwrap.dedent("""
             import sys
             import forestlab as fl
             from forestlab.synthetic import twonorm
