@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Sequence
-import dataclasses
 from concurrent.futures import Executor
 from os import PathLike
 from typing import Any
@@ -20,8 +20,8 @@ from ._fingerprint import check_same_data, data_fingerprint
 from ._grow import GrowthRules, grow_batch
 from ._importance import Importance
 from ._oob import out_of_bag
-from ._persist import MSG_NO_DATA, growth_blocker, save_forest
 from ._parallel import grow_trees
+from ._persist import MSG_NO_DATA, growth_blocker, save_forest
 from ._presort import presort
 from ._proximity import ProximityMap
 from ._results import OutOfBag
@@ -43,7 +43,6 @@ MAX_BATCH = 64
 _DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "depth_limit": None,
              "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None,
              "balance": None, "class_weights": None, "executor": None, "progress": None}
-
 
 
 class Forest:
