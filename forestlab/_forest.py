@@ -391,6 +391,8 @@ class Forest:
         :class:`NeverOutOfBagWarning` when some case was never out-of-bag.
         """
         self._check_fitted()
+        if self._oob is None and self._data is None:
+            raise RuntimeError(MSG_NO_DATA)
         if self._oob is None:
             self._oob = out_of_bag(self._trees, self.inbag, self._data.X, self._target, stacklevel=2,
                                    weights=self.case_weights)

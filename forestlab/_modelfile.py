@@ -23,6 +23,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ._modelcheck import NODE_DTYPES, ModelFileError, field, int_field
+from ._oobfile import oob_shapes
 
 __all__ = ["FORMAT_NAME", "FORMAT_VERSION", "ModelFileError", "data_fingerprint", "read_model", "write_model"]
 
@@ -169,6 +170,9 @@ def _member_shapes(header: dict) -> dict[str, tuple[str, tuple[int, ...]]]:
     if field(header, "has_data", bool):
         shapes["X"] = ("<f8", (cases, features))
         shapes["y"] = ("<i8" if labels is not None else "<f8", (cases,))
+    if header.get("has_oob", False) is True:
+        task = "classification" if labels is not None else "regression"
+        shapes.update(oob_shapes(task, cases, trees, 0 if labels is None else shapes["classes"][1][0]))
     return shapes
 
 

@@ -20,12 +20,14 @@ from ._grow import GrowthRules
 from ._modelcheck import (LABEL_KINDS, NODE_DTYPES, ModelFileError, check_classes, check_finite, check_levels,
                           check_trees, field, int_field)
 from ._modelfile import FORMAT_NAME, FORMAT_VERSION, data_fingerprint, read_model, write_model
+from ._oob import out_of_bag
+from ._oobfile import oob_arrays, oob_from_arrays
 from ._presort import presort
 from ._sampler import AllFeatures, CandidateSampler, RandomSubset, TreeSubspace
 from ._splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from ._tree import Tree
 from ._validation import Target, check_splitter_output, resolve_categorical
-from ._warnings import IncompleteForestWarning
+from ._warnings import IncompleteForestWarning, NeverOutOfBagWarning
 from ._weights import growth_weights
 
 __all__ = ["MSG_NO_DATA", "StoredComponent", "growth_blocker", "load", "require_data", "save_forest"]
@@ -107,7 +109,24 @@ def save_forest(forest: Any, path: str | PathLike, include_data: bool = False) -
     if include_data:
         arrays["X"] = data.X.astype("<f8")
         arrays["y"] = data.target.astype("<i8" if forest.classes is not None else "<f8")
-    write_model(path, _header(forest, labels, bool(include_data), arrays), arrays)
+    oob = _oob_to_store(forest)
+    if oob is not None:
+        arrays.update(oob_arrays(oob, None if forest._target is None else forest._target.values))
+    header = _header(forest, labels, bool(include_data), arrays)
+    header["has_oob"] = oob is not None
+    write_model(path, header, arrays)
+
+
+def _oob_to_store(forest: Any):
+    """The forest's OOB results (computed now if the training data allow), or None."""
+    if forest._oob is None and forest._data is None:
+        return None
+    if forest._oob is None:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", NeverOutOfBagWarning)
+            forest._oob = out_of_bag(forest._trees, forest.inbag, forest._data.X, forest._target,
+                                     weights=forest.case_weights)
+    return forest._oob
 
 
 def _header(forest: Any, labels: dict | None, include_data: bool, arrays: dict) -> dict:
@@ -272,6 +291,9 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Any:
         weights.flags.writeable = False
     forest._fingerprint = _fingerprint(header)
     forest._target, forest._data = _training_data(header, arrays, forest, class_vector)
+    if header.get("has_oob", False) is True:
+        forest._oob = oob_from_arrays(task, {k: v for k, v in arrays.items() if k.startswith("oob_")}, classes,
+                                      len(forest._trees), weights is not None)
     return forest
 
 

@@ -20,6 +20,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import forestlab as fl
+from forestlab._modelfile import read_model, write_model
 
 NODE_ARRAYS = ("feature", "threshold", "left", "right", "value", "cases", "impurity_decrease", "depth",
                "missing_left", "category_left")
@@ -445,3 +446,54 @@ class TestLoaderFuzz:
         header, arrays = _members(SMALL)
         arrays[name] = np.zeros(shape, dtype=dtype)
         _outcome_is_clean(_pack(header, arrays))
+
+
+class TestOutOfBagKept:
+    """A forest saved without its training data keeps its out-of-bag results (issue: save and load)."""
+
+    @pytest.mark.parametrize("task", ["classification", "regression"])
+    def test_loaded_without_data_keeps_oob(self, tmp_path, task):
+        rng = np.random.default_rng(21)
+        X = rng.normal(size=(150, 4))
+        y = (X[:, 0] > 0).astype(int) if task == "classification" else X[:, 0] + 0.1 * rng.normal(size=150)
+        weights = rng.uniform(0.5, 2.0, 150) if task == "regression" else None
+        forest = fl.Forest(trees=25, rng=4).fit(X, y, weights=weights)
+        path = tmp_path / "kept.npz"
+        forest.save(path)
+        loaded = fl.load(path)
+        a, b = forest.oob, loaded.oob
+        for name in ("coverage", "error_curve", "margins", "votes", "class_index", "confusion", "by_class",
+                     "residuals", "spread", "predictions", "observed"):
+            x, z = getattr(a, name), getattr(b, name)
+            if x is None:
+                assert z is None
+            elif x.dtype == object:
+                assert x.tolist() == z.tolist()
+            else:
+                np.testing.assert_array_equal(x, z)
+                assert x.dtype == z.dtype
+        for name in ("error", "strength", "correlation", "error_bound", "explained_variance"):
+            x, z = getattr(a, name), getattr(b, name)
+            assert (x is None and z is None) or x == z or (np.isnan(x) and np.isnan(z))
+
+    def test_tampered_oob_is_refused(self, tmp_path):
+        X = np.random.default_rng(2).normal(size=(60, 2))
+        forest = fl.Forest(trees=5, rng=1).fit(X, X[:, 0] > 0)
+        path = tmp_path / "f.npz"
+        forest.save(path)
+        header, arrays = read_model(path)
+        arrays["oob_coverage"] = arrays["oob_coverage"] + 99
+        write_model(tmp_path / "g.npz", header, arrays)
+        with pytest.raises(fl.ModelFileError, match="out-of-bag coverage"):
+            fl.load(tmp_path / "g.npz")
+
+    def test_no_data_no_stored_oob_gives_a_clear_error(self, tmp_path):
+        X = np.random.default_rng(2).normal(size=(60, 2))
+        forest = fl.Forest(trees=5, rng=1).fit(X, X[:, 0] > 0)
+        path = tmp_path / "f.npz"
+        forest.save(path)
+        header, arrays = read_model(path)
+        header["has_oob"] = False
+        write_model(tmp_path / "g.npz", header, {k: v for k, v in arrays.items() if not k.startswith("oob_")})
+        with pytest.raises(RuntimeError, match="loaded from a file without its training data"):
+            fl.load(tmp_path / "g.npz").oob  # noqa: B018
