@@ -22,7 +22,7 @@ from ._presort import TrainingData
 from ._splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from ._workspace import Workspace, scratch
 
-__all__ = ["binary_statistics", "binary_best_splits", "squared_error_best_splits"]
+__all__ = ["binary_statistics", "binary_best_splits", "squared_error_best_splits", "squared_error_statistics"]
 
 _LOW = np.int64(0xFFFFFFFF)
 
@@ -92,30 +92,60 @@ def squared_error_applies(splitter: CartSplitter, data: TrainingData) -> bool:
     return type(splitter) is SquaredErrorSplitter and not data.missing and not data.category_words
 
 
-def squared_error_best_splits(seg, min_leaf: float, lightest: float, stats, parent, out, tie: float,
-                              work: Workspace | None, running_sums):
-    """As :func:`binary_best_splits` for the squared-error splitter; ``running_sums`` is the generic one."""
+def squared_error_statistics(data: TrainingData, splitter: CartSplitter,
+                             stats: NDArray[np.float64]) -> NDArray[np.complex128] | None:
+    """Channels 1 and 2 of the batch's statistics as one complex array ``S1 + 1j * S2`` (None when the fast
+    path does not apply): one random gather fetches both, and a complex ``cumsum`` runs both running sums
+    in one pass (complex addition adds the parts separately, so the sums are the float ones bit for bit)."""
+    if not squared_error_applies(splitter, data):
+        return None
+    pair = np.empty(stats.shape[1], dtype=np.complex128)
+    pair.real = stats[1]
+    pair.imag = stats[2]
+    return pair
+
+
+def squared_error_best_splits(seg, min_leaf: float, lightest: float, stats, pair, parent, out, tie: float,
+                              work: Workspace | None):
+    """As :func:`binary_best_splits` for the squared-error splitter; ``pair`` from
+    :func:`squared_error_statistics`. The running sums are the generic ones (same additions, same order)."""
     L = seg.x.size
-    elem = np.take(stats, seg.wi, axis=1, out=scratch(work, "elem3", 3 * L, np.float64).reshape(3, L),
-                   mode="clip")
-    left, totals = running_sums(elem, seg, scratch(work, "cs3", 3 * L, np.float64).reshape(3, L))
-    right = np.take(totals, seg.cand_of, axis=1, out=elem, mode="clip")
-    right -= left
+    w = np.take(stats[0], seg.wi, out=scratch(work, "w", L, np.float64), mode="clip")
+    s = np.take(pair, seg.wi, out=scratch(work, "pair", L, np.complex128), mode="clip")
+    total_w = np.add.reduceat(w, seg.start)
+    total_s = np.empty(seg.start.size, dtype=np.complex128)
+    total_s.real = np.add.reduceat(s.real, seg.start)
+    total_s.imag = np.add.reduceat(s.imag, seg.start)
+    tree_first = np.ones(seg.start.size, dtype=bool)
+    tree_first[1:] = seg.cand_tree[1:] != seg.cand_tree[:-1]
+    restart = np.flatnonzero(~tree_first)
+    w[seg.start[restart]] -= total_w[restart - 1]
+    s[seg.start[restart]] -= total_s[restart - 1]
+    left_w, left_s = scratch(work, "left_w", L, np.float64), scratch(work, "left_s", L, np.complex128)
+    bounds = np.append(seg.start[tree_first], L)
+    for lo, hi in zip(bounds[:-1], bounds[1:]):
+        np.cumsum(w[lo:hi], out=left_w[lo:hi])
+        np.cumsum(s[lo:hi], out=left_s[lo:hi])
+    right_w = np.take(total_w, seg.cand_of, out=w, mode="clip")
+    right_w -= left_w
+    right_s = np.take(total_s, seg.cand_of, out=s, mode="clip")
+    right_s -= left_s
     with np.errstate(divide="ignore", invalid="ignore"):
         score = np.take(parent[seg.cand_node], seg.cand_of, out=scratch(work, "score", L, np.float64), mode="clip")
         tmp = scratch(work, "tmp1", L, np.float64)
-        score -= _weighted_variance(left, scratch(work, "imp", L, np.float64), tmp)
-        score -= _weighted_variance(right, scratch(work, "imp", L, np.float64), tmp)
-    return _pick(seg, min_leaf, lightest, parent, out, tie, work, score, left[0], right[0])
+        score -= _weighted_variance(left_w, left_s, scratch(work, "imp", L, np.float64), tmp)
+        score -= _weighted_variance(right_w, right_s, scratch(work, "imp", L, np.float64), tmp)
+    return _pick(seg, min_leaf, lightest, parent, out, tie, work, score, left_w, right_w)
 
 
-def _weighted_variance(S, out, tmp):
-    """``W * i`` of the squared-error splitter on channel-major ``S``, its operations in its order."""
-    mean = np.divide(S[1], S[0], out=tmp)
-    v = np.divide(S[2], S[0], out=out)
+def _weighted_variance(W, S, out, tmp):
+    """``W * i`` of the squared-error splitter for weights ``W`` and ``S = S1 + 1j * S2``, its operations in
+    its order."""
+    mean = np.divide(S.real, W, out=tmp)
+    v = np.divide(S.imag, W, out=out)
     v -= np.multiply(mean, mean, out=mean)
     np.maximum(v, 0.0, out=v)
-    v *= S[0]
+    v *= W
     return v
 
 

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import binary_statistics
+from ._fast_search import binary_statistics, squared_error_statistics
 from ._bootstrap import draw_counts
 from ._presort import TrainingData
 from ._sampler import CandidateSampler
@@ -42,15 +42,17 @@ class _Batch:
 
     stats: NDArray[np.float64]
     lightest: float  # smallest positive case weight; a min_leaf at most this needs no weight checks
-    packed: NDArray[np.int64] | None  # the same as packed integers, for two classes without weights
+    packed: NDArray | None  # the same packed for a fast path: int64 (two classes), complex (squared error)
     work: Workspace  # scratch buffers of the search, reused from level to level
 
     @classmethod
     def weighted(cls, data: TrainingData, counts: NDArray[np.uint8], splitter: CartSplitter) -> _Batch:
         stats = (data.stats.T[:, None, :] * counts[None, :, :]).reshape(data.stats.shape[1], -1)
         positive = stats[0][stats[0] > 0]
-        return cls(stats, float(positive.min()) if positive.size else 1.0,
-                   binary_statistics(data, splitter, counts), Workspace())
+        packed = binary_statistics(data, splitter, counts)
+        if packed is None:
+            packed = squared_error_statistics(data, splitter, stats)
+        return cls(stats, float(positive.min()) if positive.size else 1.0, packed, Workspace())
 
 
 def grow_batch(data: TrainingData, rules: GrowthRules,

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import binary_best_splits, squared_error_applies, squared_error_best_splits
+from ._fast_search import binary_best_splits, squared_error_best_splits
 from ._categorical import category_order, left_sets
 from ._presort import TrainingData
 from ._splitter import CartSplitter
@@ -86,7 +86,8 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
 
     Ties (scores within a relative 1e-12): lowest feature, then smallest threshold, then missing cases sent
     right. ``stats`` is the batch's channel-major weighted statistics, ``parent`` the nodes' ``W * i(t)``;
-    ``packed``, when given, the same statistics for :mod:`._fast_search`'s two-class path; ``work`` holds
+    ``packed``, when given, the same statistics for one of :mod:`._fast_search`'s paths (int64: two classes,
+    complex: squared error); ``work`` holds
     scratch buffers reused from level to level (results never live in it).
     """
     out = Splits.none(mask.shape[0], data.category_words)
@@ -94,11 +95,10 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
     if cand.size == 0 or items.row.size == 0:
         return out
     seg = _sorted_segments(data, items, node_tree, mask, cand, work)
+    if packed is not None and packed.dtype == np.complex128:
+        return squared_error_best_splits(seg, min_leaf, lightest, stats, packed, parent, out, TIE_TOLERANCE, work)
     if packed is not None:
         return binary_best_splits(seg, splitter, min_leaf, lightest, packed, parent, out, TIE_TOLERANCE, work)
-    if work is not None and squared_error_applies(splitter, data):
-        return squared_error_best_splits(seg, min_leaf, lightest, stats, parent, out, TIE_TOLERANCE, work,
-                                         _running_sums)
     order = _order_categories(data, seg, stats[0]) if data.category_words else None
     elem = np.take(stats, seg.wi, axis=1)
     missing = _missing_totals(seg, elem) if data.missing else None
