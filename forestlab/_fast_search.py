@@ -162,16 +162,49 @@ def _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr):
     new_node = np.r_[True, seg.cand_node[1:] != seg.cand_node[:-1]]
     node_first = np.flatnonzero(new_node)
     nodes = seg.cand_node[node_first]
+    size = np.diff(np.append(seg.start, L))
+    if not np.all(size > 0):
+        return _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, new_node, node_first, nodes)
+    top = np.maximum.reduceat(score, seg.start)
+    best = np.maximum.reduceat(top, node_first)
+    with np.errstate(invalid="ignore"):
+        bar = best - tie * np.maximum(np.abs(best), np.abs(parent[nodes]))
+    found = best > -np.inf
+    pick = _first_reaching(seg.start, size, score, top, bar, node_first, found)
+    return _record(seg, out, nodes[found], pick, score, wl, wr)
+
+
+def _first_reaching(start, size, score, top, bar, node_first, found):
+    """Per found node, the first element of its segments whose score reaches the node's ``bar``: the first
+    candidate whose segment maximum reaches it, then the first element of that segment alone."""
+    with np.errstate(invalid="ignore"):
+        reach = np.flatnonzero(top >= np.repeat(bar, np.diff(np.append(node_first, top.size))))
+    cand = reach[np.searchsorted(reach, node_first[found])]
+    bar = bar[found]
+    width = size[cand]
+    offset = np.cumsum(width) - width
+    elem = np.arange(int(width.sum())) + np.repeat(start[cand] - offset, width)
+    hit = np.flatnonzero(score[elem] >= np.repeat(bar, width))
+    return elem[hit[np.searchsorted(hit, offset)]]
+
+
+def _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, new_node, node_first, nodes):
+    """:func:`_pick`'s choice by a pass over all elements (any segment may be empty)."""
+    L = seg.x.size
     starts = seg.start[node_first]
     best = np.maximum.reduceat(score, starts)
     with np.errstate(invalid="ignore"):
         bar = best - tie * np.maximum(np.abs(best), np.abs(parent[nodes]))
     node_of = np.take(np.cumsum(new_node) - 1, seg.cand_of, out=scratch(work, "node_of", L, np.int64), mode="clip")
     barred = np.take(bar, node_of, out=scratch(work, "tmp1", L, np.float64), mode="clip")
-    tied = np.flatnonzero(np.greater_equal(score, barred, out=valid))
+    tied = np.flatnonzero(np.greater_equal(score, barred, out=scratch(work, "valid", L, np.bool_)))
     pick = tied[np.searchsorted(tied, starts)]
     found = best > -np.inf
-    nodes, pick = nodes[found], pick[found]
+    return _record(seg, out, nodes[found], pick[found], score, wl, wr)
+
+
+def _record(seg, out, nodes, pick, score, wl, wr):
+    """Write the chosen cuts ``pick`` of ``nodes`` into ``out``."""
     lo, hi = seg.x[pick], seg.x[pick + 1]
     threshold = 0.5 * lo + 0.5 * hi
     out.found[nodes] = True
