@@ -422,8 +422,9 @@ class Forest:
         """
         X = self._check_predict_X(X)
         out = np.empty((len(self._trees), X.shape[0]))
+        missing = bool(np.isnan(X).any())
         for b, tree in enumerate(self._trees):
-            out[b] = tree.value[leaf_index(tree, X)]
+            out[b] = tree.value[leaf_index(tree, X, missing)]
         return out.astype(np.int64) if self.task == "classification" else out
 
     def votes(self, X: ArrayLike) -> NDArray[np.float64]:
