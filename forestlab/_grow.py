@@ -74,12 +74,10 @@ def grow_batch(data: TrainingData, rules: GrowthRules,
                          "weight 0; give more cases a positive weight")
     items = Items(np.concatenate(rows), np.repeat(np.arange(len(gens)), [r.size for r in rows]))
     node_tree = np.arange(len(gens))
-    base = np.zeros(len(gens), dtype=np.int64)
     records: list[dict[str, NDArray]] = []
     depth = 0
     while node_tree.size:
-        level, items, node_tree, base = _grow_level(data, rules, gens, subspace, batch, items, node_tree,
-                                                    base, depth)
+        level, items, node_tree = _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth)
         records.append(level)
         depth += 1
     return _collect(records, len(gens)), counts
@@ -106,7 +104,7 @@ def checked_mask(sampler: CandidateSampler, rng: np.random.Generator, nodes: int
     return mask
 
 
-def _grow_level(data, rules, gens, subspace, batch, items, node_tree, base, depth):
+def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth):
     """Summarise, search and partition every open node of one level."""
     n, K = data.rows, node_tree.size
     wi = node_tree[items.node] * n + items.row
@@ -119,20 +117,15 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, base, dept
     if open_nodes.size:
         splits.update(open_nodes, _search_open(data, rules, gens, subspace, batch, items, node_tree, totals,
                                                weight, closed, open_nodes))
-    local = _local_ids(node_tree, base)
-    level_size = np.bincount(node_tree, minlength=base.size)
-    split_nodes = np.flatnonzero(splits.found)
-    left = np.full(K, -1, dtype=np.int64)
-    left[split_nodes] = _child_ids(node_tree[split_nodes], base + level_size)
+    # breadth-first numbering: the children of a tree's j-th inner node are its nodes 2j+1 and 2j+2 (Tree.left)
     record = {
-        "tree": node_tree, "local": local, "feature": np.where(splits.found, splits.feature, -1),
-        "threshold": np.where(splits.found, splits.threshold, np.nan), "left": left, "value": value,
+        "tree": node_tree, "feature": np.where(splits.found, splits.feature, -1),
+        "threshold": np.where(splits.found, splits.threshold, np.nan), "value": value,
         "cases": weight, "decrease": np.where(splits.found, splits.decrease, 0.0),
-        "depth": np.full(K, depth, dtype=np.int64), "missing_left": splits.missing_left & splits.found,
-        "category_left": splits.category_left,
+        "missing_left": splits.missing_left & splits.found, "category_left": splits.category_left,
     }
     next_items = _partition(data, items, splits)
-    return record, next_items, np.repeat(node_tree[split_nodes], 2), base + level_size
+    return record, next_items, np.repeat(node_tree[np.flatnonzero(splits.found)], 2)
 
 
 def _node_summaries(data: TrainingData, batch, items: Items, wi, K: int):
@@ -181,18 +174,6 @@ def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.
     per_tree = np.bincount(sub_tree, minlength=len(gens))
     parts = [checked_mask(sampler, gens[t], int(k), features) for t, k in enumerate(per_tree) if k]
     return np.concatenate(parts)
-
-
-def _local_ids(node_tree, base):
-    """Index of each node of the level within its own tree (breadth-first numbering)."""
-    first = np.searchsorted(node_tree, node_tree, side="left")
-    return base[node_tree] + np.arange(node_tree.size) - first
-
-
-def _child_ids(split_tree, next_base):
-    """Left-child index within its tree of each splitting node (the right child follows it)."""
-    first = np.searchsorted(split_tree, split_tree, side="left")
-    return next_base[split_tree] + 2 * (np.arange(split_tree.size) - first)
 
 
 def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:

@@ -78,6 +78,10 @@ def _check_links(nodes: dict[str, NDArray], offsets: NDArray[np.int64], features
     inner = ~leaf
     if np.any(inner & ((left <= local) | (right >= size[tree]) | (right != left + 1))):
         raise ModelFileError("a child index points backward, out of its tree, or right != left + 1")
+    rank = np.cumsum(inner) - np.cumsum(inner)[offsets[:-1]][tree] + inner[offsets[:-1]][tree]
+    if np.any(inner & (left != 2 * rank - 1)):
+        raise ModelFileError("the nodes are not in breadth-first order (the j-th inner node's children must be "
+                             "nodes 2j+1 and 2j+2)")
     children = np.concatenate([(offsets[:-1][tree] + left)[inner], (offsets[:-1][tree] + right)[inner]])
     parents = np.bincount(children, minlength=total)
     roots = np.zeros(total, dtype=bool)

@@ -25,7 +25,7 @@ from ._oobfile import oob_arrays, oob_from_arrays
 from ._presort import presort
 from ._sampler import AllFeatures, CandidateSampler, RandomSubset, TreeSubspace
 from ._splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
-from ._tree import Tree
+from ._tree import NODE_STORAGE, Tree
 from ._validation import Target, check_splitter_output, resolve_categorical
 from ._warnings import IncompleteForestWarning, NeverOutOfBagWarning
 from ._weights import growth_weights
@@ -388,9 +388,20 @@ def _new_forest(Forest: type, header: dict, task: str, sampler: Any, splitter: A
 
 
 def _trees(arrays: dict[str, NDArray]) -> list[Tree]:
+    """Trees from the checked node arrays; their breadth-first layout gives left, right and depth, which must
+    agree with the file's."""
     cuts = arrays["offsets"][1:-1]
     parts = {attr: np.split(arrays[name], cuts) for name, attr in TREE_FIELDS.items()}
-    return [Tree(**{attr: parts[attr][b] for attr in parts}) for b in range(cuts.size + 1)]
+    single = np.finfo(np.float32).max
+    if any(np.any(np.abs(arrays[name]) > single) for name in ("cases", "decrease")):
+        raise ModelFileError("the file's node weights or impurity decreases exceed single precision")
+    trees = []
+    for b in range(cuts.size + 1):
+        tree = Tree(**{attr: parts[attr][b].astype(dtype) for attr, dtype in NODE_STORAGE.items()})
+        if not np.array_equal(tree.depth, parts["depth"][b]):
+            raise ModelFileError(f"tree {b}: the stored node depths disagree with the tree's structure")
+        trees.append(tree)
+    return trees
 
 
 def _fingerprint(header: dict) -> str:

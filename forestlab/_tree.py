@@ -9,7 +9,17 @@ from numpy.typing import NDArray
 
 from ._categorical import in_left_set
 
-__all__ = ["Tree", "TreeArrays", "goes_right", "leaf_index"]
+__all__ = ["NODE_STORAGE", "Tree", "TreeArrays", "goes_right", "leaf_index"]
+
+
+def _read_only(arr: NDArray) -> NDArray:
+    arr.flags.writeable = False
+    return arr
+
+
+# dtype of every stored node array (the order of Tree's fields)
+NODE_STORAGE = {"feature": np.int32, "threshold": np.float64, "value": np.float64, "cases": np.float32,
+                "impurity_decrease": np.float32, "missing_left": np.bool_, "category_left": np.uint64}
 
 
 @dataclass(frozen=True, eq=False)
@@ -18,7 +28,9 @@ class Tree:
 
     Node ``k`` is a leaf when ``feature[k] == -1``; otherwise a case goes to ``left[k]`` when its value of
     feature ``feature[k]`` is ``<= threshold[k]`` and to ``right[k]`` (always ``left[k] + 1``) otherwise.
-    Children always come after their parent.
+    Children always come after their parent: the children of the ``j``-th inner node (counting inner nodes
+    in node order from 0) are nodes ``2j + 1`` and ``2j + 2``, so ``left``, ``right`` and ``depth`` follow from
+    ``feature`` and are computed when read rather than stored.
 
     Attributes
     ----------
@@ -27,16 +39,17 @@ class Tree:
     threshold : ndarray of float64, shape (nodes,)
         Split threshold (midpoint between neighbouring distinct values), NaN at leaves.
     left, right : ndarray of int32, shape (nodes,)
-        Child indices, -1 at leaves.
+        Child indices, -1 at leaves (computed from ``feature``).
     value : ndarray of float64, shape (nodes,)
         The node's prediction: class index of the heaviest class (lowest index on ties) or the weighted mean
         of the target. Defined at every node, not only at leaves.
-    cases : ndarray of float64, shape (nodes,)
-        Bootstrap-weighted number of training cases in the node.
-    impurity_decrease : ndarray of float64, shape (nodes,)
-        ``W_t i(t) - W_l i(l) - W_r i(r)`` of the node's split (0 at leaves), in weighted cases times impurity.
+    cases : ndarray of float32, shape (nodes,)
+        Bootstrap-weighted number of training cases in the node (exact for counts below 2**24).
+    impurity_decrease : ndarray of float32, shape (nodes,)
+        ``W_t i(t) - W_l i(l) - W_r i(r)`` of the node's split (0 at leaves), in weighted cases times impurity,
+        to single precision.
     depth : ndarray of int32, shape (nodes,)
-        Depth of the node; the root has depth 0.
+        Depth of the node; the root has depth 0 (computed from ``feature``).
     missing_left : ndarray of bool, shape (nodes,)
         Where a case whose split feature is missing (NaN) goes: left when True. Learned with the threshold
         when the node's training cases had missing values there, else the heavier child. False at leaves.
@@ -48,12 +61,9 @@ class Tree:
 
     feature: NDArray[np.int32]
     threshold: NDArray[np.float64]
-    left: NDArray[np.int32]
-    right: NDArray[np.int32]
     value: NDArray[np.float64]
-    cases: NDArray[np.float64]
-    impurity_decrease: NDArray[np.float64]
-    depth: NDArray[np.int32]
+    cases: NDArray[np.float32]
+    impurity_decrease: NDArray[np.float32]
     missing_left: NDArray[np.bool_]
     category_left: NDArray[np.uint64]
 
@@ -76,22 +86,37 @@ class Tree:
         """Number of leaves."""
         return int(np.count_nonzero(self.feature < 0))
 
+    @property
+    def left(self) -> NDArray[np.int32]:
+        """Left child of every node (-1 at leaves): ``2j + 1`` for the ``j``-th inner node."""
+        inner = self.feature >= 0
+        return _read_only(np.where(inner, 2 * np.cumsum(inner, dtype=np.int64) - 1, -1).astype(np.int32))
+
+    @property
+    def right(self) -> NDArray[np.int32]:
+        """Right child of every node (-1 at leaves): always ``left + 1``."""
+        left = self.left
+        return _read_only(np.where(left >= 0, left + 1, -1).astype(np.int32))
+
+    @property
+    def depth(self) -> NDArray[np.int32]:
+        """Depth of every node (root 0), one pass per level."""
+        depth = np.zeros(self.nodes, dtype=np.int32)
+        left = self.left
+        frontier = np.flatnonzero(left[:1] >= 0)
+        level = 0
+        while frontier.size:
+            level += 1
+            children = np.concatenate([left[frontier], left[frontier] + 1])
+            depth[children] = level
+            frontier = children[left[children] >= 0]
+        return _read_only(depth)
+
     @classmethod
     def from_columns(cls, parts: dict[str, list[NDArray]], b: int) -> Tree:
         """Build tree ``b`` from the grower's per-tree columns."""
-        left = parts["left"][b].astype(np.int32)
-        return cls(
-            feature=parts["feature"][b].astype(np.int32),
-            threshold=parts["threshold"][b].astype(np.float64),
-            left=left,
-            right=np.where(left >= 0, left + 1, -1).astype(np.int32),
-            value=parts["value"][b].astype(np.float64),
-            cases=parts["cases"][b].astype(np.float64),
-            impurity_decrease=parts["decrease"][b].astype(np.float64),
-            depth=parts["depth"][b].astype(np.int32),
-            missing_left=parts["missing_left"][b].astype(np.bool_),
-            category_left=parts["category_left"][b].astype(np.uint64),
-        )
+        column = {"impurity_decrease": "decrease"}
+        return cls(**{name: parts[column.get(name, name)][b].astype(dtype) for name, dtype in NODE_STORAGE.items()})
 
     def __repr__(self) -> str:
         return f"Tree(nodes={self.nodes}, leaves={self.leaves}, depth={int(self.depth.max())})"
@@ -171,12 +196,13 @@ def _leaf_index_general(tree: Tree, X: NDArray[np.float64], missing: bool) -> ND
     """:func:`leaf_index` for any tree and data (missing values, categorical splits)."""
     node = np.zeros(X.shape[0], dtype=np.int64)
     active = np.arange(X.shape[0])
+    left = tree.left
     while active.size:
         here = node[active]
         inner = np.flatnonzero(tree.feature[here] >= 0)
         if inner.size == 0:
             break
         active, here = active[inner], here[inner]
-        node[active] = tree.left[here] + goes_right(X, active, here, tree.feature, tree.threshold,
+        node[active] = left[here] + goes_right(X, active, here, tree.feature, tree.threshold,
                                                     tree.missing_left, tree.category_left, missing)
     return node

@@ -68,7 +68,7 @@ def test_ordered_search_finds_the_best_subset(problem):
         assert tree.feature[0] == -1
         return
     assert tree.feature[0] == 0 and np.isnan(tree.threshold[0])
-    np.testing.assert_allclose(tree.impurity_decrease[0], expected, rtol=1e-9, atol=1e-9)
+    np.testing.assert_allclose(tree.impurity_decrease[0], expected, rtol=1e-6, atol=1e-6)   # stored as float32
     # the stored left set (bits indexed by the sorted distinct labels) reproduces that score
     encoded = np.unique(codes, return_inverse=True)[1].astype(np.uint64)
     left = ((tree.category_left[0, 0] >> encoded) & np.uint64(1)).astype(bool)
@@ -86,7 +86,7 @@ def test_more_classes_use_a_valid_subset_no_better_than_brute_force():
         y = (codes + rng.integers(0, 2, 60)) % 3
         forest, tree = root_split(codes, y, "gini")
         expected = best_subset_score(codes, y, forest.splitter, 3, 1)
-        assert tree.impurity_decrease[0] <= expected + 1e-9
+        assert tree.impurity_decrease[0] <= expected * (1 + 1e-6) + 1e-6
         assert tree.impurity_decrease[0] >= 0.6 * expected
 
 

@@ -352,7 +352,7 @@ def _crafted(kind):
 CRAFTED = {
     "backward": r"points backward", "cycle": r"points backward", "right": r"right != left \+ 1",
     "feature": r"feature index lies outside -1 \.\. 2", "class": r"class index lies outside 0 \.\. 2",
-    "threshold": r"thresholds must be finite", "shared-child": r"no parent or more than one",
+    "threshold": r"thresholds must be finite", "shared-child": r"no parent or more than one|breadth-first order",
     "huge-shape": r"declares shape \(1099511627776,\)", "huge-count": r"member 'cases' is larger|must be",
     "dtype": r"member 'feature' must be <i4", "pickle": r"member 'classes' is not a plain C-ordered array",
     "version": r"format version 99 is not supported", "extra": r"differ from those its header implies",
