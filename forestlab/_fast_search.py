@@ -171,7 +171,7 @@ def _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr):
         bar = best - tie * np.maximum(np.abs(best), np.abs(parent[nodes]))
     found = best > -np.inf
     pick = _first_reaching(seg.start, size, score, top, bar, node_first, found)
-    return _record(seg, out, nodes[found], pick, score, wl, wr)
+    return record_cuts(seg, out, nodes[found], pick, score[pick], wl[pick] >= wr[pick])
 
 
 def _first_reaching(start, size, score, top, bar, node_first, found):
@@ -200,16 +200,19 @@ def _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, new_node, node
     tied = np.flatnonzero(np.greater_equal(score, barred, out=scratch(work, "valid", L, np.bool_)))
     pick = tied[np.searchsorted(tied, starts)]
     found = best > -np.inf
-    return _record(seg, out, nodes[found], pick[found], score, wl, wr)
+    nodes, pick = nodes[found], pick[found]
+    return record_cuts(seg, out, nodes, pick, score[pick], wl[pick] >= wr[pick])
 
 
-def _record(seg, out, nodes, pick, score, wl, wr):
-    """Write the chosen cuts ``pick`` of ``nodes`` into ``out``."""
-    lo, hi = seg.x[pick], seg.x[pick + 1]
+def record_cuts(seg, out, nodes, element, decrease, heavier_left):
+    """Write the cut after sorted ``element`` of each of ``nodes`` into ``out``: its feature, the midpoint of
+    the neighbouring distinct values as threshold (the lower value where the midpoint rounds onto the upper
+    one), the decrease, and missing values sent to the heavier child."""
+    lo, hi = seg.x[element], seg.x[element + 1]
     threshold = 0.5 * lo + 0.5 * hi
     out.found[nodes] = True
-    out.feature[nodes] = seg.cand_feat[seg.cand_of[pick]]
+    out.feature[nodes] = seg.cand_feat[seg.cand_of[element]]
     out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
-    out.decrease[nodes] = score[pick]
-    out.missing_left[nodes] = wl[pick] >= wr[pick]
+    out.decrease[nodes] = decrease
+    out.missing_left[nodes] = heavier_left
     return out

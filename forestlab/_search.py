@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import binary_best_splits, squared_error_best_splits
+from ._fast_search import binary_best_splits, record_cuts, squared_error_best_splits
 from ._categorical import category_order, left_sets
 from ._presort import TrainingData
 from ._splitter import CartSplitter
@@ -120,19 +120,12 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
     else:
         nodes, pick = _argmax_per_node(node, score, parent)
     e = cut[pick]
-    lo, hi = seg.x[e], seg.x[e + 1]
-    threshold = 0.5 * lo + 0.5 * hi
-    out.found[nodes] = True
-    out.feature[nodes] = seg.cand_feat[seg.cand_of[e]]
-    out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
-    out.decrease[nodes] = score[pick]
-    # a split that saw no missing case sends them to the heavier child (left on ties)
-    out.missing_left[nodes] = left[0, pick] >= right[0, pick]
+    record_cuts(seg, out, nodes, e, score[pick], left[0, pick] >= right[0, pick])
     if missing_side is not None:
         seen, to_left = missing_side
         out.missing_left[nodes] = np.where(seen[pick], to_left[pick], out.missing_left[nodes])
     if order is not None:
-        _record_category_sets(out, order, nodes, seg.cand_of[e], lo, data.category_words)
+        _record_category_sets(out, order, nodes, seg.cand_of[e], seg.x[e], data.category_words)
     return out
 
 
