@@ -150,12 +150,13 @@ class TestPlanBlocks:
         assert _parallel.start_method() in ("forkserver", "spawn")
 
 
-class TestInvariance:
-    @pytest.fixture(scope="class")
-    def reference(self):
-        X, y = _problem()
-        return X, y, fl.Forest(trees=18, rng=5).fit(X, y)
+@pytest.fixture(scope="module")
+def reference():
+    X, y = _problem()
+    return X, y, fl.Forest(trees=18, rng=5).fit(X, y)
 
+
+class TestInvariance:
     def test_workers_two(self, reference):
         X, y, ref = reference
         _assert_same_forest(ref, fl.Forest(trees=18, rng=5, workers=2).fit(X, y))
