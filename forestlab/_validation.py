@@ -247,12 +247,25 @@ class Target:
     classes: NDArray | None  # labels in vote-column order, or None for regression
 
 
+def _check_declared_classes(y: Any) -> None:
+    """A categorical target (pandas) that declares a class no case has is refused, naming the classes."""
+    categories = getattr(getattr(y, "dtype", None), "categories", None)
+    if categories is None or not hasattr(y, "value_counts"):
+        return
+    counts = y.value_counts(sort=False)
+    empty = [c for c in categories if counts.get(c, 0) == 0]
+    if empty:
+        raise ValueError(f"`y` declares {len(empty)} class(es) with no cases: {empty[:10]}; drop unused "
+                         "categories (`.cat.remove_unused_categories()`) or supply cases of them")
+
+
 def _infer_task(arr: NDArray) -> str:
     return "regression" if arr.dtype.kind == "f" else "classification"
 
 
 def check_y(y: Any, rows: int, task: str | None) -> Target:
     """Validate targets against ``rows`` cases and encode them for ``task`` (inferred when None)."""
+    _check_declared_classes(y)
     try:
         arr = np.asarray(y)
     except (ValueError, TypeError) as exc:

@@ -324,3 +324,13 @@ def test_unpickled_trees_are_read_only():
     tree = fl.Forest(trees=1, rng=0).fit(X, X[:, 0] > 0).tree(0)
     again = pickle.loads(pickle.dumps(tree))
     assert not again.feature.flags.writeable and not again.threshold.flags.writeable
+
+
+def test_a_declared_class_with_no_cases_is_refused():
+    pd = pytest.importorskip("pandas")
+    X = np.random.default_rng(0).normal(size=(20, 2))
+    y = pd.Series(pd.Categorical(["ok", "scrap"] * 10, categories=["ok", "rework", "scrap"]))
+    with pytest.raises(ValueError, match=r"`y` declares 1 class\(es\) with no cases: \['rework'\]"):
+        fl.Forest(trees=2).fit(X, y)
+    forest = fl.Forest(trees=2, rng=0).fit(X, y.cat.remove_unused_categories())
+    assert forest.classes.tolist() == ["ok", "scrap"]
