@@ -255,11 +255,12 @@ def _run_shared(executor, data, rules, root, blocks, report) -> list[Grown]:
             raise
 
 
-def _run_threads(executor, data, rules, root, blocks, report) -> list[Grown]:
+def _submit_and_collect(submit, blocks, report) -> list[Grown]:
+    """Submit every block with ``submit(ids)``, collect in block order; cancel the rest on any failure."""
     futures: dict[Future, int] = {}
     try:
         for k, ids in enumerate(blocks):
-            futures[executor.submit(grow_block, data, rules, root, ids)] = k
+            futures[submit(ids)] = k
         return _collect(futures, blocks, report)
     except _BlockFailed as failed:
         _cancel(futures)
@@ -267,21 +268,17 @@ def _run_threads(executor, data, rules, root, blocks, report) -> list[Grown]:
     except BaseException:
         _cancel(futures)
         raise
+
+
+def _run_threads(executor, data, rules, root, blocks, report) -> list[Grown]:
+    return _submit_and_collect(lambda ids: executor.submit(grow_block, data, rules, root, ids), blocks, report)
 
 
 def _run_dask(executor, client, data, rules, root, blocks, report) -> list[Grown]:
     shared = client.scatter(data, broadcast=True, hash=False)  # X travels once per worker
-    futures: dict[Future, int] = {}
-    try:
-        for k, ids in enumerate(blocks):  # positional only: keywords of submit go to the client
-            futures[executor.submit(grow_block, shared, rules, root, ids)] = k
-        return _collect(futures, blocks, report)
-    except _BlockFailed as failed:
-        _cancel(futures)
-        raise _failure(failed, blocks, None) from failed.error
-    except BaseException:
-        _cancel(futures)
-        raise
+    try:  # positional arguments only: keywords of submit go to the client
+        return _submit_and_collect(lambda ids: executor.submit(grow_block, shared, rules, root, ids), blocks,
+                                   report)
     finally:
         shared.release()
 

@@ -14,12 +14,14 @@ from typing import ClassVar
 import numpy as np
 from numpy.typing import NDArray
 
+from ._component import Component
+
 __all__ = ["CandidateSampler", "AllFeatures", "RandomSubset", "TreeSubspace"]
 
 _NAMED_SIZES = ("log2", "sqrt")
 
 
-class CandidateSampler(abc.ABC):
+class CandidateSampler(Component, abc.ABC):
     """Abstract candidate-feature sampler; subclass it to choose split candidates your own way.
 
     Implement ``draw(rng, nodes, features)`` returning a boolean mask of shape ``(nodes, features)``: row ``k``
@@ -70,15 +72,6 @@ class CandidateSampler(abc.ABC):
     def resolve(self, features: int, task: str) -> CandidateSampler:
         """This sampler with any task-dependent size fixed for ``features`` features (used at fit)."""
         return self
-
-    def __repr__(self) -> str:
-        return f"{type(self).__name__}()"
-
-    def __eq__(self, other: object) -> bool:
-        return type(self) is type(other) and vars(self) == vars(other)
-
-    def __hash__(self) -> int:
-        return hash(type(self))
 
 
 class AllFeatures(CandidateSampler):

@@ -24,12 +24,14 @@ from typing import ClassVar
 import numpy as np
 from numpy.typing import NDArray
 
+from ._component import Component
+
 __all__ = ["CartSplitter", "GiniSplitter", "EntropySplitter", "SquaredErrorSplitter"]
 
 TASKS = ("classification", "regression")
 
 
-class CartSplitter(abc.ABC):
+class CartSplitter(Component, abc.ABC):
     """Abstract split criterion on additive statistics; subclass it for an impurity of your own.
 
     A subclass sets the class attribute ``task`` (``"classification"`` or ``"regression"``) and implements
@@ -99,15 +101,6 @@ class CartSplitter(abc.ABC):
         ndarray, shape (...)
             Finite, non-negative impurities.
         """
-
-    def __repr__(self) -> str:
-        return f"{type(self).__name__}()"
-
-    def __eq__(self, other: object) -> bool:
-        return type(self) is type(other) and vars(self) == vars(other)
-
-    def __hash__(self) -> int:
-        return hash(type(self))
 
 
 def _class_shares(S: NDArray[np.float64]) -> NDArray[np.float64]:
