@@ -127,10 +127,8 @@ def _random_mask(rng: np.random.Generator, rows: int, features: int, m: int) -> 
     if m >= features:
         return np.ones((rows, features), dtype=bool)
     keys = rng.random((rows, features))
-    chosen = np.argpartition(keys, m - 1, axis=1)[:, :m]
-    mask = np.zeros((rows, features), dtype=bool)
-    np.put_along_axis(mask, chosen, True, axis=1)
-    return mask
+    # the m smallest of independent uniform keys (ties have probability zero)
+    return keys <= np.partition(keys, m - 1, axis=1)[:, m - 1:m]
 
 
 class RandomSubset(CandidateSampler):
