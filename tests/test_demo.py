@@ -16,6 +16,7 @@ DEMO = ROOT / "examples" / "batch_inspection.py"
 
 @pytest.fixture(scope="module")
 def demo_run():
+    pytest.importorskip("pandas")   # the demo reads a data frame (pip install 'forestlab[frames]')
     env = dict(os.environ)
     env["PYTHONPATH"] = os.pathsep.join([str(ROOT), *filter(None, [env.get("PYTHONPATH")])])
     return subprocess.run([sys.executable, "-W", "error", str(DEMO)], cwd=ROOT, env=env,
