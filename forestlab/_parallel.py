@@ -242,42 +242,35 @@ def _run_own_pool(data, rules, root, blocks, report, workers: int) -> list[Grown
 
 def _run_shared(executor, data, rules, root, blocks, report) -> list[Grown]:
     with _shared.SharedTrainingData(data) as handle, _shared.BlockBoard(len(blocks)) as board:
-        futures: dict[Future, int] = {}
-        try:
-            for k, ids in enumerate(blocks):
-                futures[executor.submit(_grow_block_shared, handle, board.handle, k, rules, root, ids)] = k
-            return _collect(futures, blocks, report)
-        except _BlockFailed as failed:
-            _cancel(futures)
-            raise _failure(failed, blocks, board.snapshot()) from failed.error
-        except BaseException:
-            _cancel(futures)
-            raise
+        return _submit_and_collect(
+            lambda k, ids: executor.submit(_grow_block_shared, handle, board.handle, k, rules, root, ids),
+            blocks, report, board)
 
 
-def _submit_and_collect(submit, blocks, report) -> list[Grown]:
-    """Submit every block with ``submit(ids)``, collect in block order; cancel the rest on any failure."""
+def _submit_and_collect(submit, blocks, report, board=None) -> list[Grown]:
+    """Submit every block with ``submit(k, ids)``, collect in block order; cancel the rest on any failure
+    (the ``board``, when given, tells which worker held which block)."""
     futures: dict[Future, int] = {}
     try:
         for k, ids in enumerate(blocks):
-            futures[submit(ids)] = k
+            futures[submit(k, ids)] = k
         return _collect(futures, blocks, report)
     except _BlockFailed as failed:
         _cancel(futures)
-        raise _failure(failed, blocks, None) from failed.error
+        raise _failure(failed, blocks, None if board is None else board.snapshot()) from failed.error
     except BaseException:
         _cancel(futures)
         raise
 
 
 def _run_threads(executor, data, rules, root, blocks, report) -> list[Grown]:
-    return _submit_and_collect(lambda ids: executor.submit(grow_block, data, rules, root, ids), blocks, report)
+    return _submit_and_collect(lambda k, ids: executor.submit(grow_block, data, rules, root, ids), blocks, report)
 
 
 def _run_dask(executor, client, data, rules, root, blocks, report) -> list[Grown]:
     shared = client.scatter(data, broadcast=True, hash=False)  # X travels once per worker
     try:  # positional arguments only: keywords of submit go to the client
-        return _submit_and_collect(lambda ids: executor.submit(grow_block, shared, rules, root, ids), blocks,
+        return _submit_and_collect(lambda k, ids: executor.submit(grow_block, shared, rules, root, ids), blocks,
                                    report)
     finally:
         shared.release()

@@ -103,6 +103,11 @@ class CartSplitter(Component, abc.ABC):
         """
 
 
+def _one_hot(y: NDArray, classes: int) -> NDArray[np.float64]:
+    """Class indicator statistics: row i has a 1 in column y[i]."""
+    return np.eye(classes)[y]
+
+
 def _class_shares(S: NDArray[np.float64]) -> NDArray[np.float64]:
     """Class proportions p_k = S_k / W of summed one-hot statistics."""
     return S[..., 1:] / S[..., :1]
@@ -114,7 +119,7 @@ class GiniSplitter(CartSplitter):
     task: ClassVar[str] = "classification"
 
     def statistics(self, y: NDArray, classes: int) -> NDArray[np.float64]:
-        return np.eye(classes)[y]
+        return _one_hot(y, classes)
 
     def impurity(self, S: NDArray[np.float64]) -> NDArray[np.float64]:
         p = _class_shares(S)
@@ -127,7 +132,7 @@ class EntropySplitter(CartSplitter):
     task: ClassVar[str] = "classification"
 
     def statistics(self, y: NDArray, classes: int) -> NDArray[np.float64]:
-        return np.eye(classes)[y]
+        return _one_hot(y, classes)
 
     def impurity(self, S: NDArray[np.float64]) -> NDArray[np.float64]:
         p = _class_shares(S)
