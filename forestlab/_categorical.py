@@ -87,6 +87,7 @@ def _first_component_scores(weight, by_class):
     """Projection of each category's class shares on the first weighted principal component."""
     shares = by_class / np.where(weight > 0, weight, 1.0)[..., None]
     total = weight.sum(axis=1, keepdims=True)
+    total[total == 0] = 1.0  # a candidate whose node cases all miss this feature: no category to order
     mean = np.einsum("ck,ckj->cj", weight, shares) / total
     centred = shares - mean[:, None, :]
     cov = np.einsum("ck,cki,ckj->cij", weight, centred, centred) / total[..., None]

@@ -129,3 +129,14 @@ class TestCategoricalForest:
                               rng=0).fit(X, y).tree(0)
         assert as_set.leaves == 2
         assert as_number.leaves > 2
+
+    def test_more_classes_with_a_node_missing_every_category(self):
+        # a node whose cases all miss the categorical feature has no category to order (was a NaN covariance)
+        rng = np.random.default_rng(4)
+        n = 300
+        group = rng.integers(0, 2, n)
+        code = np.where(group == 1, np.nan, rng.integers(0, 4, n).astype(float))
+        y = np.where(group == 1, rng.integers(0, 3, n), np.nan_to_num(code) % 3).astype(int)
+        X = np.column_stack([group + rng.normal(scale=0.01, size=n), code])
+        forest = fl.Forest(trees=5, sampler=fl.AllFeatures(), categorical=[1], rng=0).fit(X, y)
+        assert np.mean(forest.predict(X)[group == 0] == y[group == 0]) == 1.0
