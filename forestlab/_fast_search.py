@@ -68,9 +68,10 @@ def _unpack(v, work: Workspace | None, names: tuple[str, str]):
 
 def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, parent, out, tie: float,
                        work: Workspace | None = None):
-    """Fill ``out`` (a ``Splits``) with the best split of every node of the sorted segments ``seg``."""
-    L = seg.x.size
-    elem = np.take(packed, seg.wi, out=scratch(work, "elem", L, np.int64), mode="clip")
+    """Fill ``out`` (a ``Splits``) with the best split of every node of the sorted segments ``seg``;
+    ``packed`` holds the packed statistics of the level's items."""
+    L = seg.item.size
+    elem = np.take(packed, seg.item, out=scratch(work, "elem", L, np.int64), mode="clip")
     total = np.add.reduceat(elem, seg.start)
     elem[seg.start[1:]] -= total[:-1]
     left = np.cumsum(elem, out=elem)
@@ -105,13 +106,14 @@ def squared_error_statistics(data: TrainingData, splitter: CartSplitter,
     return pair
 
 
-def squared_error_best_splits(seg, min_leaf: float, lightest: float, stats, pair, parent, out, tie: float,
+def squared_error_best_splits(seg, min_leaf: float, lightest: float, weight, pair, parent, out, tie: float,
                               work: Workspace | None):
-    """As :func:`binary_best_splits` for the squared-error splitter; ``pair`` from
-    :func:`squared_error_statistics`. The running sums are the generic ones (same additions, same order)."""
-    L = seg.x.size
-    w = np.take(stats[0], seg.wi, out=scratch(work, "w", L, np.float64), mode="clip")
-    s = np.take(pair, seg.wi, out=scratch(work, "pair", L, np.complex128), mode="clip")
+    """As :func:`binary_best_splits` for the squared-error splitter; ``weight`` and ``pair`` (from
+    :func:`squared_error_statistics`) per item of the level. The running sums are the generic ones (same
+    additions, same order)."""
+    L = seg.item.size
+    w = np.take(weight, seg.item, out=scratch(work, "w", L, np.float64), mode="clip")
+    s = np.take(pair, seg.item, out=scratch(work, "pair", L, np.complex128), mode="clip")
     total_w = np.add.reduceat(w, seg.start)
     total_s = np.empty(seg.start.size, dtype=np.complex128)
     total_s.real = np.add.reduceat(s.real, seg.start)
@@ -151,9 +153,9 @@ def _weighted_variance(W, S, out, tmp):
 
 def _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr):
     """Mask the invalid boundaries, then record the first best-scoring cut of every node in ``out``."""
-    L = seg.x.size
+    L = seg.item.size
     valid = scratch(work, "valid", L, np.bool_)
-    np.greater(seg.x[1:], seg.x[:-1], out=valid[:-1])
+    np.not_equal(seg.code[1:], seg.code[:-1], out=valid[:-1])
     valid[-1] = False
     valid[seg.start[1:] - 1] = False
     if min_leaf > lightest:
@@ -190,7 +192,7 @@ def _first_reaching(start, size, score, top, bar, node_first, found):
 
 def _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, new_node, node_first, nodes):
     """:func:`_pick`'s choice by a pass over all elements (any segment may be empty)."""
-    L = seg.x.size
+    L = seg.item.size
     starts = seg.start[node_first]
     best = np.maximum.reduceat(score, starts)
     with np.errstate(invalid="ignore"):
@@ -208,7 +210,7 @@ def record_cuts(seg, out, nodes, element, decrease, heavier_left):
     """Write the cut after sorted ``element`` of each of ``nodes`` into ``out``: its feature, the midpoint of
     the neighbouring distinct values as threshold (the lower value where the midpoint rounds onto the upper
     one), the decrease, and missing values sent to the heavier child."""
-    lo, hi = seg.x[element], seg.x[element + 1]
+    lo, hi = seg.values(element), seg.values(element + 1)
     threshold = 0.5 * lo + 0.5 * hi
     out.found[nodes] = True
     out.feature[nodes] = seg.cand_feat[seg.cand_of[element]]

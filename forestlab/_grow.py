@@ -72,7 +72,9 @@ def grow_batch(data: TrainingData, rules: GrowthRules,
     if empty:
         raise ValueError(f"the bootstrap sample of tree {seeds[empty[0]].spawn_key[-1]} holds only cases of "
                          "weight 0; give more cases a positive weight")
-    items = Items(np.concatenate(rows), np.repeat(np.arange(len(gens)), [r.size for r in rows]))
+    slot = np.repeat(np.arange(len(gens)), [r.size for r in rows])
+    row = np.concatenate(rows)
+    items = Items(row, slot, slot * n + row)
     node_tree = np.arange(len(gens))
     records: list[dict[str, NDArray]] = []
     depth = 0
@@ -106,9 +108,8 @@ def checked_mask(sampler: CandidateSampler, rng: np.random.Generator, nodes: int
 
 def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth):
     """Summarise, search and partition every open node of one level."""
-    n, K = data.rows, node_tree.size
-    wi = node_tree[items.node] * n + items.row
-    weight, totals, value, pure = _node_summaries(data, batch, items, wi, K)
+    K = node_tree.size
+    weight, totals, value, pure = _node_summaries(data, batch, items, K)
     closed = pure | (weight < 2 * rules.min_leaf)
     if rules.depth_limit is not None and depth >= rules.depth_limit:
         closed[:] = True
@@ -128,9 +129,9 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth):
     return record, next_items, np.repeat(node_tree[np.flatnonzero(splits.found)], 2)
 
 
-def _node_summaries(data: TrainingData, batch, items: Items, wi, K: int):
+def _node_summaries(data: TrainingData, batch, items: Items, K: int):
     """Per node: case weight, summed statistics, leaf value and whether all targets are equal."""
-    item_stats = np.take(batch.stats, wi, axis=1)
+    item_stats = np.take(batch.stats, items.wi, axis=1)
     totals = np.stack([np.bincount(items.node, weights=channel, minlength=K) for channel in item_stats], axis=1)
     weight = totals[:, 0]
     y = data.target[items.row]
@@ -152,7 +153,7 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     """Best split of every open node; per-node samplers fall back to the other features if none splits."""
     keep = np.flatnonzero(~closed[items.node])
     relabel = np.cumsum(~closed) - 1
-    sub_items = Items(items.row[keep], relabel[items.node[keep]])
+    sub_items = Items(items.row[keep], relabel[items.node[keep]], items.wi[keep])
     sub_tree = node_tree[open_nodes]
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * checked_impurity(rules.splitter, totals[open_nodes])
@@ -179,11 +180,11 @@ def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.
 def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
     """Send the items of split nodes to their children (order within each tree kept)."""
     keep = np.flatnonzero(splits.found[items.node])
-    row, node = items.row[keep], items.node[keep]
+    row, node, wi = items.row[keep], items.node[keep], items.wi[keep]
     go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
                           splits.category_left, data.missing)
     child_rank = np.cumsum(splits.found) - 1
-    return Items(row, 2 * child_rank[node] + go_right)
+    return Items(row, 2 * child_rank[node] + go_right, wi)
 
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[TreeArrays]:

@@ -1,4 +1,4 @@
-"""The per-forest plan: features sorted once, reused by every tree and every level."""
+"""The per-forest plan: features ranked once, reused by every tree and every level."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ from numpy.typing import NDArray
 
 from ._categorical import words_for
 
-__all__ = ["TrainingData", "presort"]
+__all__ = ["TrainingData", "dense_ranks", "presort"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -20,12 +20,12 @@ class TrainingData:
     ----------
     X : ndarray of float64, shape (n, p)
         The predictors, C-contiguous.
-    order : ndarray of int32, shape (p, n)
-        ``order[j]`` lists the rows by increasing ``X[:, j]`` (stable sort).
-    sorted_x : ndarray of float64, shape (p, n)
-        ``sorted_x[j, r] == X[order[j, r], j]``.
-    rank : ndarray of int32, shape (n, p)
-        ``rank[i, j]`` is the position of row ``i`` in ``order[j]``.
+    dense : ndarray of int32, shape (n, p)
+        ``dense[i, j]`` is the rank of ``X[i, j]`` among the distinct values of feature ``j`` (0 for the
+        smallest; equal values share a rank). Every missing value (NaN) has a rank of its own, above every
+        number, in row order.
+    dense_bits : int
+        Bits needed for the largest dense rank (at least 1).
     target : ndarray, shape (n,)
         Class indices (int64) or float64 targets.
     stats : ndarray of float64, shape (n, 1 + s)
@@ -45,9 +45,8 @@ class TrainingData:
     """
 
     X: NDArray[np.float64]
-    order: NDArray[np.int32]
-    sorted_x: NDArray[np.float64]
-    rank: NDArray[np.int32]
+    dense: NDArray[np.int32]
+    dense_bits: int
     target: NDArray
     stats: NDArray[np.float64]
     classes: int
@@ -73,22 +72,33 @@ class TrainingData:
 def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.float64], classes: int,
             categories: NDArray[np.int64] | None = None, weights: NDArray[np.float64] | None = None,
             strata: NDArray[np.int64] | None = None) -> TrainingData:
-    """Sort every feature once and pack the per-case statistics with a weight channel.
+    """Rank every feature once and pack the per-case statistics with a weight channel.
 
     With ``weights``, channel 0 becomes the case weight and the statistics are multiplied by it.
     """
     n, p = X.shape
-    order = np.ascontiguousarray(np.argsort(X, axis=0, kind="stable").T.astype(np.int32))
-    sorted_x = np.ascontiguousarray(np.take_along_axis(X, order.T, axis=0).T)
-    rank_t = np.empty((p, n), dtype=np.int32)
-    np.put_along_axis(rank_t, order, np.arange(n, dtype=np.int32)[None, :], axis=1)
+    dense = np.empty((n, p), dtype=np.int32)
+    for j in range(p):  # a column at a time: temporaries of a few columns, not of X
+        dense[:, j] = dense_ranks(X[:, j])
     stats = np.empty((n, 1 + statistics.shape[1]))
     stats[:, 0] = 1.0
     stats[:, 1:] = statistics
     if weights is not None:
         stats *= weights[:, None]
-    return TrainingData(X=X, order=order, sorted_x=sorted_x, rank=np.ascontiguousarray(rank_t.T),
-                        target=target, stats=stats, classes=classes,
-                        missing=bool(np.isnan(sorted_x[:, -1]).any()),
+    return TrainingData(X=X, dense=dense, dense_bits=max(1, int(dense.max(initial=0)).bit_length()),
+                        target=target, stats=stats, classes=classes, missing=bool(np.isnan(X).any()),
                         categories=None if categories is None or not np.any(categories) else categories,
                         weights=weights, strata=strata)
+
+
+def dense_ranks(column: NDArray[np.float64]) -> NDArray[np.int32]:
+    """Rank of every value among the distinct values of ``column`` (ties share one); NaNs rank last, each
+    its own rank, in row order."""
+    order = np.argsort(column, kind="stable")
+    ordered = column[order]
+    step = np.empty(column.size, dtype=np.int32)
+    step[:1] = 0
+    np.not_equal(ordered[1:], ordered[:-1], out=step[1:], casting="unsafe")  # NaN != NaN: a rank each
+    ranks = np.empty(column.size, dtype=np.int32)
+    ranks[order] = np.cumsum(step, dtype=np.int32)
+    return ranks

@@ -27,13 +27,15 @@ TIE_TOLERANCE = 1e-12
 
 @dataclass
 class Items:
-    """The open (tree, row) pairs of one level; ``node`` indexes the level's open nodes."""
+    """The open (tree, row) pairs of one level; ``node`` indexes the level's open nodes, ``wi`` is
+    ``slot * n + row``, the pair's column in the batch's weighted statistics."""
 
     row: NDArray[np.int64]
     node: NDArray[np.int64]
+    wi: NDArray[np.int64]
 
     def take(self, keep: NDArray[np.intp]) -> Items:
-        return Items(self.row[keep], self.node[keep])
+        return Items(self.row[keep], self.node[keep], self.wi[keep])
 
 
 @dataclass
@@ -68,16 +70,48 @@ def checked_impurity(splitter: CartSplitter, S: NDArray[np.float64]) -> NDArray[
 
 @dataclass
 class _Segments:
-    """The rows of every (node, candidate feature) pair, sorted by that feature, concatenated."""
+    """The items of every (node, candidate feature) pair, sorted by that feature, concatenated.
+
+    ``code`` is ``candidate << dense_bits | dense rank``: neighbours with equal codes hold equal values of
+    the same candidate. The generic search also fills ``x``, ``wi`` and ``row`` (:meth:`materialise`).
+    """
 
     cand_node: NDArray[np.int64]   # (C,) node of each candidate
     cand_feat: NDArray[np.int64]   # (C,) feature of each candidate
     cand_tree: NDArray[np.int64]   # (C,) batch slot of each candidate
     start: NDArray[np.int64]       # (C,) first element of each candidate's segment
-    cand_of: NDArray[np.int64]     # (L,) candidate of each element
-    x: NDArray[np.float64]         # (L,) feature value (category position for categorical), NaN last
-    wi: NDArray[np.int64]          # (L,) index of each element's (tree, row) in the weighted statistics
-    row: NDArray[np.int32]         # (L,) training row of each element (may be the same array as wi)
+    size: NDArray[np.int64]        # (C,) elements of each candidate's segment
+    item: NDArray[np.int64]        # (L,) the level's item of each element
+    code: NDArray[np.int64]        # (L,) candidate and dense rank of each element
+    dense_bits: int
+    items: Items
+    X: NDArray[np.float64]
+    work: Workspace | None = None
+    x: NDArray[np.float64] | None = None   # (L,) feature value (category position for categorical), NaN last
+    wi: NDArray[np.int64] | None = None    # (L,) index of each element's (tree, row) in the weighted statistics
+    row: NDArray[np.int64] | None = None   # (L,) training row of each element
+    _cand_of: NDArray[np.int64] | None = None
+
+    @property
+    def cand_of(self) -> NDArray[np.int64]:
+        """(L,) candidate of each element."""
+        if self._cand_of is None:
+            self._cand_of = np.right_shift(self.code, self.dense_bits,
+                                           out=scratch(self.work, "cand_of", self.code.size, np.int64))
+        return self._cand_of
+
+    def values(self, element: NDArray[np.intp]) -> NDArray[np.float64]:
+        """Feature values of the given elements."""
+        if self.x is not None:
+            return self.x[element]
+        feature = self.cand_feat[self.cand_of[element]]
+        return self.X[self.items.row[self.item[element]], feature]
+
+    def materialise(self) -> None:
+        """Fill ``row``, ``wi`` and ``x`` (NaN for missing values) for the generic search."""
+        self.row = self.items.row[self.item]
+        self.wi = self.items.wi[self.item]
+        self.x = self.X.ravel()[self.row * self.X.shape[1] + self.cand_feat[self.cand_of]]
 
 
 def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, stats, lightest: float,
@@ -96,9 +130,12 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, sta
         return out
     seg = _sorted_segments(data, items, node_tree, mask, cand, work)
     if packed is not None and packed.dtype == np.complex128:
-        return squared_error_best_splits(seg, min_leaf, lightest, stats, packed, parent, out, TIE_TOLERANCE, work)
+        return squared_error_best_splits(seg, min_leaf, lightest, np.take(stats[0], items.wi),
+                                         np.take(packed, items.wi), parent, out, TIE_TOLERANCE, work)
     if packed is not None:
-        return binary_best_splits(seg, splitter, min_leaf, lightest, packed, parent, out, TIE_TOLERANCE, work)
+        return binary_best_splits(seg, splitter, min_leaf, lightest, np.take(packed, items.wi), parent, out,
+                                  TIE_TOLERANCE, work)
+    seg.materialise()
     order = _order_categories(data, seg, stats[0]) if data.category_words else None
     elem = np.take(stats, seg.wi, axis=1)
     missing = _missing_totals(seg, elem) if data.missing else None
@@ -163,8 +200,6 @@ def _order_categories(data: TrainingData, seg: _Segments, weights) -> _CategoryO
     position = np.full(el.size, float(k))
     position[seen] = pos.ravel()[slot]
     perm = np.argsort(lc * (k + 1) + position.astype(np.int64), kind="stable")
-    if seg.wi is seg.row:
-        seg.wi = seg.row.copy()
     position[~seen] = np.nan
     seg.x[el] = position[perm]
     seg.wi[el] = seg.wi[el][perm]
@@ -186,68 +221,67 @@ def _record_category_sets(out: Splits, order: _CategoryOrder, nodes, cand, cut_p
 
 def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, work: Workspace | None = None,
                      ) -> _Segments:
-    """Sort all (candidate, row) pairs of a level with one ``np.sort`` of packed keys."""
-    n, p = data.rows, data.features
+    """Sort all (candidate, item) pairs of a level by candidate and value with one ``np.sort``.
+
+    Each pair's key is ``code << item_bits | item`` with ``code = candidate << dense_bits | dense rank``:
+    sorting the keys sorts every candidate's items by value, ties in item order, and the item comes back
+    in the low bits. Should the key need more than 63 bits, a stable argsort of the codes does the same.
+    """
+    p = data.features
     K = mask.shape[0]
     cand_node, cand_feat = np.divmod(cand, p)
     ncand = np.bincount(cand_node, minlength=K)
     first = np.cumsum(ncand) - ncand
-    key = _packed_keys(data, items, cand_feat, ncand, first, work)
-    key.sort()
+    code, pair_item = _pair_codes(data, items, cand_feat, ncand, first, work)
+    N = items.row.size
+    item_bits = max(1, (N - 1).bit_length())
+    if (cand.size - 1).bit_length() + data.dense_bits + item_bits <= 63:
+        key = np.left_shift(code, item_bits, out=code)
+        if pair_item is None:
+            key.reshape(-1, N)[...] |= np.arange(N)
+        else:
+            key |= pair_item
+        key.sort()
+        item = np.bitwise_and(key, (1 << item_bits) - 1, out=scratch(work, "item", key.size, np.int64))
+        code = np.right_shift(key, item_bits, out=key)
+    else:
+        perm = np.argsort(code, kind="stable")
+        item = perm % N if pair_item is None else pair_item[perm]
+        code = code[perm]
     size = np.bincount(items.node, minlength=K)[cand_node]
     start = np.cumsum(size) - size
-    cand_of = _segment_ids(start, size, key.size, work)
-    flat = key
-    flat += np.take((cand_feat - np.arange(cand.size)) * n, cand_of, out=scratch(work, "tmp", key.size, np.int64),
-                    mode="clip")
-    cand_tree = node_tree[cand_node]
-    row = np.take(data.order.ravel(), flat, out=scratch(work, "row", key.size, data.order.dtype), mode="clip")
-    if cand_tree[-1] > 0:
-        wi = np.take(cand_tree * n, cand_of, out=scratch(work, "wi", key.size, np.int64), mode="clip")
-        wi += row
-    else:
-        wi = row
-    x = np.take(data.sorted_x.ravel(), flat, out=scratch(work, "x", key.size, np.float64), mode="clip")
-    return _Segments(cand_node, cand_feat, cand_tree, start, cand_of, x, wi, row)
+    return _Segments(cand_node, cand_feat, node_tree[cand_node], start, size, item, code, data.dense_bits, items,
+                     data.X, work)
 
 
-def _segment_ids(start, size, total: int, work: Workspace | None) -> NDArray[np.int64]:
-    """Segment (candidate) index of every element: ``np.repeat(arange(C), size)``, into a scratch buffer."""
-    if work is None or not np.all(size > 0):
-        return np.repeat(np.arange(size.size), size)
-    ids = work.get("cand_of", total, np.int64)
-    ids[:] = 0
-    ids[start[1:]] = 1
-    return np.cumsum(ids, out=ids)
-
-
-def _packed_keys(data: TrainingData, items: Items, cand_feat, ncand, first,
-                 work: Workspace | None = None) -> NDArray[np.int64]:
-    """``candidate * n + rank[row, feature]`` for every (item, candidate of its node) pair."""
-    n, p = data.rows, data.features
-    rank = data.rank.ravel()
+def _pair_codes(data: TrainingData, items: Items, cand_feat, ncand, first, work: Workspace | None = None,
+                ) -> tuple[NDArray[np.int64], NDArray[np.int64] | None]:
+    """``candidate << dense_bits | dense[row, feature]`` for every (item, candidate of its node) pair, and
+    the item of every pair (None when the pairs are slot-major: pair ``j * N + i`` is item ``i``)."""
+    p, db = data.features, data.dense_bits
+    dense = data.dense.ravel()
+    N = items.row.size
     m = int(ncand[0])
     if m and np.all(ncand == m):
-        # slot-major (m, N): long inner loops; the order before the sort does not matter (keys are distinct)
-        N = items.row.size
+        # slot-major (m, N): long inner loops
         by_slot = cand_feat.reshape(-1, m)
         row_base = np.multiply(items.row, p, out=scratch(work, "row_base", N, np.int64))
-        node_base = np.take(first * n, items.node, out=scratch(work, "node_base", N, np.int64), mode="clip")
-        key = scratch(work, "key", m * N, np.int64).reshape(m, N)
+        node_base = np.take(first << db, items.node, out=scratch(work, "node_base", N, np.int64), mode="clip")
+        code = scratch(work, "key", m * N, np.int64).reshape(m, N)
         feat = scratch(work, "feat", N, np.int64)
-        ranks = scratch(work, "rank", N, rank.dtype)
+        ranks = scratch(work, "rank", N, dense.dtype)
         for j in range(m):
             np.take(by_slot[:, j], items.node, out=feat, mode="clip")
             feat += row_base
-            np.add(node_base, np.take(rank, feat, out=ranks, mode="clip"), out=key[j])
+            np.add(node_base, np.take(dense, feat, out=ranks, mode="clip"), out=code[j])
             if j:
-                key[j] += j * n
-        return key.ravel()
+                code[j] += j << db
+        return code.ravel(), None
     reps = ncand[items.node]
-    pair_item = np.repeat(np.arange(items.row.size), reps)
+    pair_item = np.repeat(np.arange(N), reps)
     offsets = np.arange(pair_item.size) - np.repeat(np.cumsum(reps) - reps, reps)
     pair_cand = first[items.node][pair_item] + offsets
-    return pair_cand * n + rank[items.row[pair_item] * p + cand_feat[pair_cand]]
+    return (pair_cand << db) | dense[items.row[pair_item] * p + cand_feat[pair_cand]], pair_item
 
 
 def _missing_totals(seg: _Segments, elem: NDArray[np.float64]) -> NDArray[np.float64] | None:
