@@ -94,11 +94,14 @@ def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.floa
 def dense_ranks(column: NDArray[np.float64]) -> NDArray[np.int32]:
     """Rank of every value among the distinct values of ``column`` (ties share one); NaNs rank last, each
     its own rank, in row order."""
-    order = np.argsort(column, kind="stable")
+    order = np.argsort(column)  # not stable: equal values share their rank whatever their order
     ordered = column[order]
     step = np.empty(column.size, dtype=np.int32)
     step[:1] = 0
-    np.not_equal(ordered[1:], ordered[:-1], out=step[1:], casting="unsafe")  # NaN != NaN: a rank each
+    np.not_equal(ordered[1:], ordered[:-1], out=step[1:], casting="unsafe")
     ranks = np.empty(column.size, dtype=np.int32)
     ranks[order] = np.cumsum(step, dtype=np.int32)
+    gaps = np.flatnonzero(np.isnan(column))  # NaN sorts last; number the missing values in row order
+    if gaps.size:
+        ranks[gaps] = ranks[order[column.size - gaps.size]] + np.arange(gaps.size, dtype=np.int32)
     return ranks
