@@ -6,14 +6,18 @@ the gathers at the cuts, and keep their large temporaries in the batch's scratch
 *Two classes* (Gini or entropy, no case weights): every summed statistic is
 an integer count, so the two channels the search needs, the bootstrap weight ``W`` and the class-1 count
 ``c1``, travel packed in one int64 (``W + c1 * 2**32``): one gather, one integer ``cumsum`` (exact, so in any
-order), and ``c0 = W - c1``. The impurities are then computed from the same float values, with the same
-operations in the same order, as the generic path, so the chosen splits and their scores are bit-identical.
+order), and ``c0 = W - c1``. Entropy is then computed from the same float values, with the same operations
+in the same order, as the generic path, so its splits and scores are bit-identical; Gini takes the shorter
+``W i = 2 c0 c1 / W``, equal to the generic value up to its rounding (so the chosen split can differ only
+between splits whose scores differ by about the tie tolerance).
 
 *Squared error*: the generic running sums (same calls, same order) and the splitter's operations in its
 order, on channel-major arrays instead of transposed views; bit-identical as well.
 """
 
 from __future__ import annotations
+
+import sys
 
 import numpy as np
 from numpy.typing import NDArray
@@ -22,10 +26,7 @@ from ._presort import TrainingData
 from ._splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from ._workspace import Workspace, scratch
 
-__all__ = ["binary_statistics", "binary_best_splits", "squared_error_best_splits", "squared_error_statistics"]
-
-_LOW = np.int64(0xFFFFFFFF)
-
+__all__ = ["binary_statistics", "binary_best_splits", "binary_summaries", "squared_error_best_splits", "squared_error_statistics"]
 
 def binary_statistics(data: TrainingData, splitter: CartSplitter,
                       counts: NDArray[np.uint8]) -> NDArray[np.int64] | None:
@@ -55,15 +56,32 @@ def _weighted_impurity(entropy: bool, W, c1, out, tmp):
     return s
 
 
+def _halves(v):
+    """Views of the low (``W``) and high (``c1``) 32-bit halves of packed int64 values (both below 2**31:
+    ``W`` is at most the sample size)."""
+    halves = v.view(np.int32).reshape(-1, 2)
+    return (halves[:, 0], halves[:, 1]) if sys.byteorder == "little" else (halves[:, 1], halves[:, 0])
+
+
 def _unpack(v, work: Workspace | None, names: tuple[str, str]):
     """(W, c1) of packed values, as float64 (scratch) arrays."""
-    part = np.bitwise_and(v, _LOW, out=scratch(work, "unpacked", v.size, np.int64))
+    low, high = _halves(v)
     w = scratch(work, names[0], v.size, np.float64)
-    w[...] = part
-    np.right_shift(v, 32, out=part)
+    np.copyto(w, low, casting="unsafe")
     c = scratch(work, names[1], v.size, np.float64)
-    c[...] = part
+    np.copyto(c, high, casting="unsafe")
     return w, c
+
+
+def binary_summaries(packed, node, K: int):
+    """Case weight, totals ``[W, c0, c1]``, leaf class and purity of every node, from the packed counts of the
+    level's items (``node`` their nodes): integers all, so equal to the generic summaries."""
+    low, high = _halves(packed)
+    weight = np.bincount(node, weights=low, minlength=K)
+    c1 = np.bincount(node, weights=high, minlength=K)
+    c0 = weight - c1
+    value = (c1 > c0).astype(np.float64)  # the heavier class, the lower one on ties
+    return weight, np.column_stack([weight, c0, c1]), value, (c0 == 0) | (c1 == 0)
 
 
 def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, parent, out, tie: float,
@@ -83,9 +101,26 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
         wr, cr = _unpack(right, work, ("wr", "cr"))
         score = np.take(parent[seg.cand_node], seg.cand_of, out=scratch(work, "score", L, np.float64), mode="clip")
         tmp = scratch(work, "tmp1", L, np.float64)
-        score -= _weighted_impurity(entropy, wl, cl, scratch(work, "imp", L, np.float64), tmp)
-        score -= _weighted_impurity(entropy, wr, cr, scratch(work, "imp", L, np.float64), tmp)
+        if entropy:
+            score -= _weighted_impurity(entropy, wl, cl, scratch(work, "imp", L, np.float64), tmp)
+            score -= _weighted_impurity(entropy, wr, cr, scratch(work, "imp", L, np.float64), tmp)
+        else:
+            score -= _weighted_gini_children(wl, cl, wr, cr, scratch(work, "imp", L, np.float64), tmp)
     return _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr)
+
+
+def _weighted_gini_children(wl, cl, wr, cr, out, tmp):
+    """``W_l i(l) + W_r i(r)`` for two-class Gini: ``W (1 - p0**2 - p1**2) = 2 c0 c1 / W``, from the exact
+    integer counts (as floats; products exact below 2**53), so with one rounding per side."""
+    left = np.subtract(wl, cl, out=out)
+    left *= cl
+    left /= wl
+    right = np.subtract(wr, cr, out=tmp)
+    right *= cr
+    right /= wr
+    left += right
+    left *= 2.0
+    return left
 
 
 def squared_error_applies(splitter: CartSplitter, data: TrainingData) -> bool:
@@ -154,25 +189,23 @@ def _weighted_variance(W, S, out, tmp):
 def _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr):
     """Mask the invalid boundaries, then record the first best-scoring cut of every node in ``out``."""
     L = seg.item.size
-    valid = scratch(work, "valid", L, np.bool_)
-    np.not_equal(seg.code[1:], seg.code[:-1], out=valid[:-1])
-    valid[-1] = False
-    valid[seg.start[1:] - 1] = False
+    invalid = scratch(work, "valid", L, np.bool_)
+    np.equal(seg.code[1:], seg.code[:-1], out=invalid[:-1])
+    invalid[-1] = True
+    invalid[seg.start[1:] - 1] = True
     if min_leaf > lightest:
-        valid &= (wl >= min_leaf) & (wr >= min_leaf)
-    np.copyto(score, -np.inf, where=~valid)
-    new_node = np.r_[True, seg.cand_node[1:] != seg.cand_node[:-1]]
-    node_first = np.flatnonzero(new_node)
-    nodes = seg.cand_node[node_first]
-    size = np.diff(np.append(seg.start, L))
-    if not np.all(size > 0):
-        return _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, new_node, node_first, nodes)
+        invalid |= wl < min_leaf
+        invalid |= wr < min_leaf
+    np.putmask(score, invalid, -np.inf)
+    node_first, nodes = seg.node_first, seg.cand_node[seg.node_first]
+    if not np.all(seg.size > 0):
+        return _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, node_first, nodes)
     top = np.maximum.reduceat(score, seg.start)
     best = np.maximum.reduceat(top, node_first)
     with np.errstate(invalid="ignore"):
         bar = best - tie * np.maximum(np.abs(best), np.abs(parent[nodes]))
     found = best > -np.inf
-    pick = _first_reaching(seg.start, size, score, top, bar, node_first, found)
+    pick = _first_reaching(seg.start, seg.size, score, top, bar, node_first, found)
     return record_cuts(seg, out, nodes[found], pick, score[pick], wl[pick] >= wr[pick])
 
 
@@ -190,14 +223,16 @@ def _first_reaching(start, size, score, top, bar, node_first, found):
     return elem[hit[np.searchsorted(hit, offset)]]
 
 
-def _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, new_node, node_first, nodes):
+def _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, node_first, nodes):
     """:func:`_pick`'s choice by a pass over all elements (any segment may be empty)."""
     L = seg.item.size
     starts = seg.start[node_first]
     best = np.maximum.reduceat(score, starts)
     with np.errstate(invalid="ignore"):
         bar = best - tie * np.maximum(np.abs(best), np.abs(parent[nodes]))
-    node_of = np.take(np.cumsum(new_node) - 1, seg.cand_of, out=scratch(work, "node_of", L, np.int64), mode="clip")
+    node_of_cand = np.zeros(seg.cand_node.size, dtype=np.int64)
+    node_of_cand[node_first[1:]] = 1
+    node_of = np.take(np.cumsum(node_of_cand), seg.cand_of, out=scratch(work, "node_of", L, np.int64), mode="clip")
     barred = np.take(bar, node_of, out=scratch(work, "tmp1", L, np.float64), mode="clip")
     tied = np.flatnonzero(np.greater_equal(score, barred, out=scratch(work, "valid", L, np.bool_)))
     pick = tied[np.searchsorted(tied, starts)]

@@ -13,10 +13,10 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import binary_statistics, squared_error_statistics
+from ._fast_search import binary_statistics, binary_summaries, squared_error_statistics
 from ._bootstrap import draw_counts
 from ._presort import TrainingData
-from ._sampler import CandidateSampler
+from ._sampler import CandidateSampler, draw_masks
 from ._splitter import CartSplitter
 from ._search import Items, Splits, best_splits, checked_impurity
 from ._tree import TreeArrays, goes_right
@@ -90,20 +90,7 @@ def _tree_masks(sampler: CandidateSampler, gens: list[np.random.Generator],
     """One candidate mask per tree for a per-tree sampler, drawn before any level."""
     if not sampler.per_tree:
         return None
-    return np.concatenate([checked_mask(sampler, g, 1, features) for g in gens])
-
-
-def checked_mask(sampler: CandidateSampler, rng: np.random.Generator, nodes: int,
-                 features: int) -> NDArray[np.bool_]:
-    """``sampler.draw`` with its output checked, naming the sampler class if it is wrong."""
-    mask = sampler.draw(rng, nodes, features)
-    if not isinstance(mask, np.ndarray) or mask.dtype != np.bool_ or mask.shape != (nodes, features):
-        got = f"{mask.dtype} array of shape {mask.shape}" if isinstance(mask, np.ndarray) else type(mask).__name__
-        raise ValueError(
-            f"{type(sampler).__name__}.draw(rng, {nodes}, {features}) must return a bool array of shape "
-            f"({nodes}, {features}); got {got}"
-        )
-    return mask
+    return draw_masks(sampler, gens, np.ones(len(gens), dtype=np.int64), features)
 
 
 def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth):
@@ -131,6 +118,8 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth):
 
 def _node_summaries(data: TrainingData, batch, items: Items, K: int):
     """Per node: case weight, summed statistics, leaf value and whether all targets are equal."""
+    if batch.packed is not None and batch.packed.dtype == np.int64:
+        return binary_summaries(np.take(batch.packed, items.wi), items.node, K)
     item_stats = np.take(batch.stats, items.wi, axis=1)
     totals = np.stack([np.bincount(items.node, weights=channel, minlength=K) for channel in item_stats], axis=1)
     weight = totals[:, 0]
@@ -172,9 +161,7 @@ def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.
     """Candidate masks of the open nodes, each tree drawing from its own generator."""
     if subspace is not None:
         return subspace[sub_tree]
-    per_tree = np.bincount(sub_tree, minlength=len(gens))
-    parts = [checked_mask(sampler, gens[t], int(k), features) for t, k in enumerate(per_tree) if k]
-    return np.concatenate(parts)
+    return draw_masks(sampler, gens, np.bincount(sub_tree, minlength=len(gens)), features)
 
 
 def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:

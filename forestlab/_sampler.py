@@ -16,7 +16,7 @@ from numpy.typing import NDArray
 
 from ._component import Component
 
-__all__ = ["CandidateSampler", "AllFeatures", "RandomSubset", "TreeSubspace"]
+__all__ = ["CandidateSampler", "AllFeatures", "RandomSubset", "TreeSubspace", "checked_mask", "draw_masks"]
 
 _NAMED_SIZES = ("log2", "sqrt")
 
@@ -183,3 +183,33 @@ class TreeSubspace(CandidateSampler):
 
     def __repr__(self) -> str:
         return f"TreeSubspace({self.m!r})"
+
+
+def checked_mask(sampler: CandidateSampler, rng: np.random.Generator, nodes: int,
+                 features: int) -> NDArray[np.bool_]:
+    """``sampler.draw`` with its output checked, naming the sampler class if it is wrong."""
+    mask = sampler.draw(rng, nodes, features)
+    if not isinstance(mask, np.ndarray) or mask.dtype != np.bool_ or mask.shape != (nodes, features):
+        got = f"{mask.dtype} array of shape {mask.shape}" if isinstance(mask, np.ndarray) else type(mask).__name__
+        raise ValueError(
+            f"{type(sampler).__name__}.draw(rng, {nodes}, {features}) must return a bool array of shape "
+            f"({nodes}, {features}); got {got}"
+        )
+    return mask
+
+
+def draw_masks(sampler: CandidateSampler, gens: list[np.random.Generator], nodes: NDArray[np.int64],
+               features: int) -> NDArray[np.bool_]:
+    """Candidate masks of ``nodes[t]`` nodes of every tree ``t``, stacked in tree order; tree ``t`` draws only
+    from ``gens[t]``.
+
+    The same masks as one ``draw`` call per tree with nodes; for :class:`RandomSubset` every tree draws its
+    uniform keys and the m smallest of every row are then found for all trees at once.
+    """
+    if type(sampler) is RandomSubset:
+        m = candidate_count(sampler.m, features, "classification")
+        if m >= features:
+            return np.ones((int(np.sum(nodes)), features), dtype=bool)
+        keys = np.concatenate([gens[t].random((int(k), features)) for t, k in enumerate(nodes) if k])
+        return keys <= np.partition(keys, m - 1, axis=1)[:, m - 1:m]
+    return np.concatenate([checked_mask(sampler, gens[t], int(k), features) for t, k in enumerate(nodes) if k])

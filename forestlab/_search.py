@@ -81,6 +81,7 @@ class _Segments:
     cand_tree: NDArray[np.int64]   # (C,) batch slot of each candidate
     start: NDArray[np.int64]       # (C,) first element of each candidate's segment
     size: NDArray[np.int64]        # (C,) elements of each candidate's segment
+    node_first: NDArray[np.int64]  # first candidate of every node that has candidates
     item: NDArray[np.int64]        # (L,) the level's item of each element
     code: NDArray[np.int64]        # (L,) candidate and dense rank of each element
     dense_bits: int
@@ -250,8 +251,8 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wo
         code = code[perm]
     size = np.bincount(items.node, minlength=K)[cand_node]
     start = np.cumsum(size) - size
-    return _Segments(cand_node, cand_feat, node_tree[cand_node], start, size, item, code, data.dense_bits, items,
-                     data.X, work)
+    return _Segments(cand_node, cand_feat, node_tree[cand_node], start, size, first[ncand > 0], item, code,
+                     data.dense_bits, items, data.X, work)
 
 
 def _pair_codes(data: TrainingData, items: Items, cand_feat, ncand, first, work: Workspace | None = None,

@@ -19,16 +19,16 @@ import forestlab._grow as grow
 
 @pytest.fixture
 def recorded_masks(monkeypatch):
-    """Every candidate mask the engine draws during a fit, in order."""
+    """Every candidate mask the engine draws during a fit, in order (one per draw of all trees of a batch)."""
     masks = []
-    original = grow.checked_mask
+    original = grow.draw_masks
 
-    def spy(sampler, rng, nodes, features):
-        mask = original(sampler, rng, nodes, features)
+    def spy(sampler, gens, nodes, features):
+        mask = original(sampler, gens, nodes, features)
         masks.append(mask.copy())
         return mask
 
-    monkeypatch.setattr(grow, "checked_mask", spy)
+    monkeypatch.setattr(grow, "draw_masks", spy)
     return masks
 
 
@@ -244,11 +244,12 @@ class TestTreeSubspace:
         X, y = problem(10, n=150)
         forest = fl.Forest(trees=20, sampler=fl.TreeSubspace(4), rng=0).fit(X, y)
         assert forest.sampler == fl.TreeSubspace(4)
-        assert len(recorded_masks) == 20  # one draw per tree, none per node
+        drawn = np.concatenate(recorded_masks)
+        assert drawn.shape == (20, 10)  # one row per tree, none per node
         subsets = []
-        for b, mask in enumerate(recorded_masks):
-            assert mask.shape == (1, 10) and mask.sum() == 4
-            allowed = set(np.flatnonzero(mask[0]).tolist())
+        for b, row in enumerate(drawn):
+            assert row.sum() == 4
+            allowed = set(np.flatnonzero(row).tolist())
             used = split_features(forest.tree(b))
             assert used <= allowed
             subsets.append(frozenset(allowed))
@@ -258,3 +259,15 @@ class TestTreeSubspace:
         X, y = problem(10, n=60)
         assert fl.Forest(trees=2, sampler=fl.TreeSubspace(), rng=0).fit(X, y).sampler.m == 5
         assert fl.Forest(trees=2, sampler=fl.TreeSubspace("sqrt"), rng=0).fit(X, y).sampler.m == 3
+
+
+def test_batched_draws_equal_one_draw_per_tree():
+    # the engine draws the masks of all trees of a batch together; each tree's rows must be what its own
+    # generator gives for one `draw` call (the numpy.random convention: a generator's stream is its own)
+    from forestlab._sampler import draw_masks
+
+    for sampler in (fl.RandomSubset(3), fl.RandomSubset(10), fl.AllFeatures(), fl.TreeSubspace(4)):
+        nodes = np.array([3, 0, 5, 1])
+        together = draw_masks(sampler, [np.random.default_rng(s) for s in range(4)], nodes, 10)
+        alone = np.concatenate([sampler.draw(np.random.default_rng(s), int(k), 10) for s, k in enumerate(nodes)])
+        np.testing.assert_array_equal(together, alone)
