@@ -11,31 +11,61 @@ in the same order, as the generic path, so its splits and scores are bit-identic
 ``W i = 2 c0 c1 / W``, equal to the generic value up to its rounding (so the chosen split can differ only
 between splits whose scores differ by about the tie tolerance).
 
-*Squared error*: the generic running sums (same calls, same order) and the splitter's operations in its
-order, on channel-major arrays instead of transposed views; bit-identical as well.
+*Squared error*: the running sums of the case weight and of the weighted centred target only (no second
+moment), and the classic decrease ``S_l**2 / W_l + S_r**2 / W_r - S**2 / W``; equal to the generic score up
+to rounding.
 """
 
 from __future__ import annotations
 
 import sys
+from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
 
 from ._presort import TrainingData
+from ._running import running_sums
 from ._splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from ._workspace import Workspace, scratch
 
-__all__ = ["binary_statistics", "binary_best_splits", "binary_summaries", "squared_error_best_splits", "squared_error_statistics"]
+__all__ = ["FastPath", "binary_best_splits", "binary_summaries", "fast_path", "squared_error_best_splits"]
 
-def binary_statistics(data: TrainingData, splitter: CartSplitter,
-                      counts: NDArray[np.uint8]) -> NDArray[np.int64] | None:
-    """Packed ``W + c1 * 2**32`` per (slot, row), flat ``(B*n,)``; None when the fast path does not apply."""
-    if (type(splitter) not in (GiniSplitter, EntropySplitter) or data.classes != 2 or data.weights is not None
-            or data.missing or data.category_words or data.stats.shape[1] != 3):
+@dataclass(frozen=True)
+class FastPath:
+    """A batch's statistics packed for one of the specialised searches, one entry per (slot, row).
+
+    ``kind`` is ``"binary"`` (``columns = (W + c1 * 2**32,)``, int64) or ``"squared_error"`` (``columns =
+    (W, S1)``: the case weight, int64 bootstrap counts when there are no case weights, and the weighted
+    centred target).
+    """
+
+    kind: str
+    columns: tuple[NDArray, ...]
+
+    def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, out,
+                    tie: float, work: Workspace | None):
+        """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
+        columns = [np.take(c, items.wi) for c in self.columns]
+        if self.kind == "binary":
+            return binary_best_splits(seg, splitter, min_leaf, lightest, *columns, parent, out, tie, work)
+        return squared_error_best_splits(seg, min_leaf, lightest, *columns, parent, out, tie, work)
+
+
+def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uint8],
+              stats: NDArray[np.float64]) -> FastPath | None:
+    """The specialised search for this batch, or None when only the generic one applies (user splitters,
+    more classes, missing values, categories, and case weights with two classes)."""
+    if data.missing or data.category_words:
         return None
-    w = counts.astype(np.int64)
-    return (w + ((w * (data.target == 1)) << 32)).ravel()
+    if (type(splitter) in (GiniSplitter, EntropySplitter) and data.classes == 2 and data.weights is None
+            and data.stats.shape[1] == 3):
+        w = counts.astype(np.int64)
+        return FastPath("binary", ((w + ((w * (data.target == 1)) << 32)).ravel(),))
+    if type(splitter) is SquaredErrorSplitter:
+        weight = counts.astype(np.int64).ravel() if data.weights is None else stats[0]
+        return FastPath("squared_error", (weight, stats[1]))
+    return None
 
 
 def _weighted_impurity(entropy: bool, W, c1, out, tmp):
@@ -123,67 +153,40 @@ def _weighted_gini_children(wl, cl, wr, cr, out, tmp):
     return left
 
 
-def squared_error_applies(splitter: CartSplitter, data: TrainingData) -> bool:
-    """Whether :func:`squared_error_best_splits` may replace the generic search."""
-    return type(splitter) is SquaredErrorSplitter and not data.missing and not data.category_words
-
-
-def squared_error_statistics(data: TrainingData, splitter: CartSplitter,
-                             stats: NDArray[np.float64]) -> NDArray[np.complex128] | None:
-    """Channels 1 and 2 of the batch's statistics as one complex array ``S1 + 1j * S2`` (None when the fast
-    path does not apply): one random gather fetches both, and a complex ``cumsum`` runs both running sums
-    in one pass (complex addition adds the parts separately, so the sums are the float ones bit for bit)."""
-    if not squared_error_applies(splitter, data):
-        return None
-    pair = np.empty(stats.shape[1], dtype=np.complex128)
-    pair.real = stats[1]
-    pair.imag = stats[2]
-    return pair
-
-
-def squared_error_best_splits(seg, min_leaf: float, lightest: float, weight, pair, parent, out, tie: float,
+def squared_error_best_splits(seg, min_leaf: float, lightest: float, weight, first, parent, out, tie: float,
                               work: Workspace | None):
-    """As :func:`binary_best_splits` for the squared-error splitter; ``weight`` and ``pair`` (from
-    :func:`squared_error_statistics`) per item of the level. The running sums are the generic ones (same
-    additions, same order)."""
+    """As :func:`binary_best_splits` for the squared-error splitter, from the case weight ``W`` and the
+    weighted centred target ``S`` of the level's items.
+
+    The decrease of the within-node sum of squares of a cut is ``S_l**2 / W_l + S_r**2 / W_r - S**2 / W``
+    (Breiman et al. 1984, section 8.3), the squared-error splitter's score up to rounding, so only the
+    running sums of ``W`` (integers without case weights: exact) and ``S`` are needed.
+    """
     L = seg.item.size
-    w = np.take(weight, seg.item, out=scratch(work, "w", L, np.float64), mode="clip")
-    s = np.take(pair, seg.item, out=scratch(work, "pair", L, np.complex128), mode="clip")
-    total_w = np.add.reduceat(w, seg.start)
-    total_s = np.empty(seg.start.size, dtype=np.complex128)
-    total_s.real = np.add.reduceat(s.real, seg.start)
-    total_s.imag = np.add.reduceat(s.imag, seg.start)
-    tree_first = np.ones(seg.start.size, dtype=bool)
-    tree_first[1:] = seg.cand_tree[1:] != seg.cand_tree[:-1]
-    restart = np.flatnonzero(~tree_first)
-    w[seg.start[restart]] -= total_w[restart - 1]
-    s[seg.start[restart]] -= total_s[restart - 1]
-    left_w, left_s = scratch(work, "left_w", L, np.float64), scratch(work, "left_s", L, np.complex128)
-    bounds = np.append(seg.start[tree_first], L)
-    for lo, hi in zip(bounds[:-1], bounds[1:]):
-        np.cumsum(w[lo:hi], out=left_w[lo:hi])
-        np.cumsum(s[lo:hi], out=left_s[lo:hi])
+    w = np.take(weight, seg.item, out=scratch(work, "w", L, weight.dtype), mode="clip")
+    s = np.take(first, seg.item, out=scratch(work, "s", L, np.float64), mode="clip")
+    left_w, total_w = running_sums(w, seg.start, seg.cand_tree, scratch(work, "left_w", L, weight.dtype))
+    left_s, total_s = running_sums(s, seg.start, seg.cand_tree, scratch(work, "left_s", L, np.float64))
     right_w = np.take(total_w, seg.cand_of, out=w, mode="clip")
     right_w -= left_w
     right_s = np.take(total_s, seg.cand_of, out=s, mode="clip")
     right_s -= left_s
+    if weight.dtype != np.float64:
+        left_w = _as_float(left_w, scratch(work, "wl", L, np.float64))
+        right_w = _as_float(right_w, scratch(work, "wr", L, np.float64))
     with np.errstate(divide="ignore", invalid="ignore"):
-        score = np.take(parent[seg.cand_node], seg.cand_of, out=scratch(work, "score", L, np.float64), mode="clip")
-        tmp = scratch(work, "tmp1", L, np.float64)
-        score -= _weighted_variance(left_w, left_s, scratch(work, "imp", L, np.float64), tmp)
-        score -= _weighted_variance(right_w, right_s, scratch(work, "imp", L, np.float64), tmp)
+        score = np.multiply(left_s, left_s, out=scratch(work, "score", L, np.float64))
+        score /= left_w
+        tmp = np.multiply(right_s, right_s, out=scratch(work, "tmp1", L, np.float64))
+        tmp /= right_w
+        score += tmp
+        score -= np.take(total_s * total_s / total_w, seg.cand_of, out=tmp, mode="clip")
     return _pick(seg, min_leaf, lightest, parent, out, tie, work, score, left_w, right_w)
 
 
-def _weighted_variance(W, S, out, tmp):
-    """``W * i`` of the squared-error splitter for weights ``W`` and ``S = S1 + 1j * S2``, its operations in
-    its order."""
-    mean = np.divide(S.real, W, out=tmp)
-    v = np.divide(S.imag, W, out=out)
-    v -= np.multiply(mean, mean, out=mean)
-    np.maximum(v, 0.0, out=v)
-    v *= W
-    return v
+def _as_float(values, out):
+    np.copyto(out, values, casting="unsafe")
+    return out
 
 
 def _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr):

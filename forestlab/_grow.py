@@ -2,7 +2,7 @@
 
 See ``forestlab/ENGINE.md`` for the array shapes and invariants. In short: an *item* is one in-bag
 (tree, row) pair; at every level all open nodes of all trees in the batch are searched together by sorting
-packed integer keys ``candidate * n + rank``, so the only Python loops are over levels and (for the random
+packed integer keys (candidate, dense rank, item), so the only Python loops are over levels and (for the random
 draws and the running sums) over the trees of the batch.
 """
 
@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import binary_statistics, binary_summaries, squared_error_statistics
+from ._fast_search import FastPath, binary_summaries, fast_path
 from ._bootstrap import draw_counts
 from ._presort import TrainingData
 from ._sampler import CandidateSampler, draw_masks
@@ -42,17 +42,15 @@ class _Batch:
 
     stats: NDArray[np.float64]
     lightest: float  # smallest positive case weight; a min_leaf at most this needs no weight checks
-    packed: NDArray | None  # the same packed for a fast path: int64 (two classes), complex (squared error)
+    fast: FastPath | None  # the same packed for a specialised search, if one applies
     work: Workspace  # scratch buffers of the search, reused from level to level
 
     @classmethod
     def weighted(cls, data: TrainingData, counts: NDArray[np.uint8], splitter: CartSplitter) -> _Batch:
         stats = (data.stats.T[:, None, :] * counts[None, :, :]).reshape(data.stats.shape[1], -1)
         positive = stats[0][stats[0] > 0]
-        packed = binary_statistics(data, splitter, counts)
-        if packed is None:
-            packed = squared_error_statistics(data, splitter, stats)
-        return cls(stats, float(positive.min()) if positive.size else 1.0, packed, Workspace())
+        return cls(stats, float(positive.min()) if positive.size else 1.0, fast_path(data, splitter, counts, stats),
+                   Workspace())
 
 
 def grow_batch(data: TrainingData, rules: GrowthRules,
@@ -118,8 +116,8 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth):
 
 def _node_summaries(data: TrainingData, batch, items: Items, K: int):
     """Per node: case weight, summed statistics, leaf value and whether all targets are equal."""
-    if batch.packed is not None and batch.packed.dtype == np.int64:
-        return binary_summaries(np.take(batch.packed, items.wi), items.node, K)
+    if batch.fast is not None and batch.fast.kind == "binary":
+        return binary_summaries(np.take(batch.fast.columns[0], items.wi), items.node, K)
     item_stats = np.take(batch.stats, items.wi, axis=1)
     totals = np.stack([np.bincount(items.node, weights=channel, minlength=K) for channel in item_stats], axis=1)
     weight = totals[:, 0]
@@ -147,12 +145,12 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * checked_impurity(rules.splitter, totals[open_nodes])
     search = (data, rules.splitter, rules.min_leaf, batch.stats, batch.lightest)
-    splits = best_splits(*search, sub_items, sub_tree, mask, parent, batch.packed, batch.work)
+    splits = best_splits(*search, sub_items, sub_tree, mask, parent, batch.fast, batch.work)
     if rules.sampler.per_tree or splits.found.all():
         return splits
     retry = ~mask & ~splits.found[:, None]
     again = best_splits(*search, sub_items.take(np.flatnonzero(~splits.found[sub_items.node])), sub_tree, retry,
-                        parent, batch.packed, batch.work)
+                        parent, batch.fast, batch.work)
     splits.update(again.found, again, again.found)
     return splits
 

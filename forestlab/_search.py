@@ -1,6 +1,6 @@
 """Exact best-split search for every open node of a level at once.
 
-All (node, candidate feature) pairs are sorted with one ``np.sort`` of packed keys ``candidate * n + rank``;
+All (node, candidate feature) pairs are sorted with one ``np.sort`` of packed (candidate, dense rank, item) keys;
 running sums of the weighted statistics, restarted per segment, give the left-child statistics at every
 boundary between distinct values, and the splitter scores all of them in one call. Missing values (NaN)
 sort last within each segment; every boundary is scored twice when the segment holds missing cases (missing
@@ -14,9 +14,10 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import binary_best_splits, record_cuts, squared_error_best_splits
+from ._fast_search import FastPath, record_cuts
 from ._categorical import category_order, left_sets
 from ._presort import TrainingData
+from ._running import running_sums
 from ._splitter import CartSplitter
 from ._workspace import Workspace, scratch
 
@@ -116,31 +117,27 @@ class _Segments:
 
 
 def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, stats, lightest: float,
-                items: Items, node_tree, mask, parent, packed=None, work: Workspace | None = None) -> Splits:
+                items: Items, node_tree, mask, parent, fast: FastPath | None = None,
+                work: Workspace | None = None) -> Splits:
     """Exact best split of every node over its candidate features.
 
     Ties (scores within a relative 1e-12): lowest feature, then smallest threshold, then missing cases sent
     right. ``stats`` is the batch's channel-major weighted statistics, ``parent`` the nodes' ``W * i(t)``;
-    ``packed``, when given, the same statistics for one of :mod:`._fast_search`'s paths (int64: two classes,
-    complex: squared error); ``work`` holds
-    scratch buffers reused from level to level (results never live in it).
+    ``fast``, when given, the same statistics packed for one of :mod:`._fast_search`'s searches; ``work``
+    holds scratch buffers reused from level to level (results never live in it).
     """
     out = Splits.none(mask.shape[0], data.category_words)
     cand = np.flatnonzero(mask)
     if cand.size == 0 or items.row.size == 0:
         return out
     seg = _sorted_segments(data, items, node_tree, mask, cand, work)
-    if packed is not None and packed.dtype == np.complex128:
-        return squared_error_best_splits(seg, min_leaf, lightest, np.take(stats[0], items.wi),
-                                         np.take(packed, items.wi), parent, out, TIE_TOLERANCE, work)
-    if packed is not None:
-        return binary_best_splits(seg, splitter, min_leaf, lightest, np.take(packed, items.wi), parent, out,
-                                  TIE_TOLERANCE, work)
+    if fast is not None:
+        return fast.best_splits(seg, splitter, min_leaf, lightest, items, parent, out, TIE_TOLERANCE, work)
     seg.materialise()
     order = _order_categories(data, seg, stats[0]) if data.category_words else None
     elem = np.take(stats, seg.wi, axis=1)
     missing = _missing_totals(seg, elem) if data.missing else None
-    cs, totals = _running_sums(elem, seg)
+    cs, totals = running_sums(elem, seg.start, seg.cand_tree)
     cut = _distinct_cuts(seg)
     if cut.size == 0:
         return out
@@ -293,25 +290,6 @@ def _missing_totals(seg: _Segments, elem: NDArray[np.float64]) -> NDArray[np.flo
     C = seg.start.size
     return np.stack([np.bincount(seg.cand_of[missing], weights=channel[missing], minlength=C)
                      for channel in elem])
-
-
-def _running_sums(stats: NDArray[np.float64], seg: _Segments, cs: NDArray[np.float64] | None = None):
-    """Running sums of the statistics restarted at every segment, and each segment's total.
-
-    Each segment start gets the previous segment's total subtracted so one ``cumsum`` per tree restarts near
-    zero (rounding stays at the scale of one segment); sums never cross trees, so a tree's arithmetic does
-    not depend on its batch. ``stats`` is modified in place; ``cs``, if given, receives the running sums.
-    """
-    totals = np.add.reduceat(stats, seg.start, axis=1)
-    tree_first = np.ones(seg.start.size, dtype=bool)
-    tree_first[1:] = seg.cand_tree[1:] != seg.cand_tree[:-1]
-    restart = np.flatnonzero(~tree_first)
-    stats[:, seg.start[restart]] -= totals[:, restart - 1]
-    cs = np.empty_like(stats) if cs is None else cs
-    bounds = np.append(seg.start[tree_first], stats.shape[1])
-    for lo, hi in zip(bounds[:-1], bounds[1:]):
-        np.cumsum(stats[:, lo:hi], axis=1, out=cs[:, lo:hi])
-    return cs, totals
 
 
 def _distinct_cuts(seg: _Segments) -> NDArray[np.intp]:
