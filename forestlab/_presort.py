@@ -20,8 +20,8 @@ class TrainingData:
     ----------
     X : ndarray of float64, shape (n, p)
         The predictors, C-contiguous.
-    dense : ndarray of int32, shape (n, p)
-        ``dense[i, j]`` is the rank of ``X[i, j]`` among the distinct values of feature ``j`` (0 for the
+    dense : ndarray of int32, shape (p, n)
+        ``dense[j, i]`` is the rank of ``X[i, j]`` among the distinct values of feature ``j`` (0 for the
         smallest; equal values share a rank). Every missing value (NaN) has a rank of its own, above every
         number, in row order.
     dense_bits : int
@@ -77,9 +77,9 @@ def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.floa
     With ``weights``, channel 0 becomes the case weight and the statistics are multiplied by it.
     """
     n, p = X.shape
-    dense = np.empty((n, p), dtype=np.int32)
+    dense = np.empty((p, n), dtype=np.int32)  # feature-major: a node's ranks of one feature lie together
     for j in range(p):  # a column at a time: temporaries of a few columns, not of X
-        dense[:, j] = dense_ranks(X[:, j])
+        dense[j] = dense_ranks(X[:, j])
     stats = np.empty((n, 1 + statistics.shape[1]))
     stats[:, 0] = 1.0
     stats[:, 1:] = statistics

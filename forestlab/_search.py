@@ -254,23 +254,22 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wo
 
 def _pair_codes(data: TrainingData, items: Items, cand_feat, ncand, first, work: Workspace | None = None,
                 ) -> tuple[NDArray[np.int64], NDArray[np.int64] | None]:
-    """``candidate << dense_bits | dense[row, feature]`` for every (item, candidate of its node) pair, and
+    """``candidate << dense_bits | dense[feature, row]`` for every (item, candidate of its node) pair, and
     the item of every pair (None when the pairs are slot-major: pair ``j * N + i`` is item ``i``)."""
-    p, db = data.features, data.dense_bits
+    n, db = data.rows, data.dense_bits
     dense = data.dense.ravel()
     N = items.row.size
     m = int(ncand[0])
     if m and np.all(ncand == m):
         # slot-major (m, N): long inner loops
         by_slot = cand_feat.reshape(-1, m)
-        row_base = np.multiply(items.row, p, out=scratch(work, "row_base", N, np.int64))
         node_base = np.take(first << db, items.node, out=scratch(work, "node_base", N, np.int64), mode="clip")
         code = scratch(work, "key", m * N, np.int64).reshape(m, N)
         feat = scratch(work, "feat", N, np.int64)
         ranks = scratch(work, "rank", N, dense.dtype)
         for j in range(m):
-            np.take(by_slot[:, j], items.node, out=feat, mode="clip")
-            feat += row_base
+            np.take(by_slot[:, j] * n, items.node, out=feat, mode="clip")
+            feat += items.row
             np.add(node_base, np.take(dense, feat, out=ranks, mode="clip"), out=code[j])
             if j:
                 code[j] += j << db
@@ -279,7 +278,7 @@ def _pair_codes(data: TrainingData, items: Items, cand_feat, ncand, first, work:
     pair_item = np.repeat(np.arange(N), reps)
     offsets = np.arange(pair_item.size) - np.repeat(np.cumsum(reps) - reps, reps)
     pair_cand = first[items.node][pair_item] + offsets
-    return (pair_cand << db) | dense[items.row[pair_item] * p + cand_feat[pair_cand]], pair_item
+    return (pair_cand << db) | dense[cand_feat[pair_cand] * n + items.row[pair_item]], pair_item
 
 
 def _missing_totals(seg: _Segments, elem: NDArray[np.float64]) -> NDArray[np.float64] | None:

@@ -39,5 +39,5 @@ def test_presort_ranks_every_column_of_a_strided_matrix():
     forest = fl.Forest(trees=1, rng=0).fit(X, (X[:, 0] > 0).astype(int))
     data = forest._data
     for j in range(X.shape[1]):
-        np.testing.assert_array_equal(data.dense[:, j], brute_dense_ranks(X[:, j]))
+        np.testing.assert_array_equal(data.dense[j], brute_dense_ranks(X[:, j]))
     assert data.dense_bits == int(data.dense.max()).bit_length()
