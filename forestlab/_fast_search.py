@@ -216,14 +216,23 @@ def _first_reaching(start, size, score, top, bar, node_first, found):
     """Per found node, the first element of its segments whose score reaches the node's ``bar``: the first
     candidate whose segment maximum reaches it, then the first element of that segment alone."""
     with np.errstate(invalid="ignore"):
-        reach = np.flatnonzero(top >= np.repeat(bar, np.diff(np.append(node_first, top.size))))
+        reach = np.flatnonzero(top >= bar[run_ids(np.diff(np.append(node_first, top.size)))])
     cand = reach[np.searchsorted(reach, node_first[found])]
     bar = bar[found]
     width = size[cand]
     offset = np.cumsum(width) - width
-    elem = np.arange(int(width.sum())) + np.repeat(start[cand] - offset, width)
-    hit = np.flatnonzero(score[elem] >= np.repeat(bar, width))
+    run = run_ids(width)
+    elem = np.arange(run.size) + (start[cand] - offset)[run]
+    hit = np.flatnonzero(score[elem] >= bar[run])
     return elem[hit[np.searchsorted(hit, offset)]]
+
+
+def run_ids(sizes: NDArray[np.int64]) -> NDArray[np.int64]:
+    """``np.repeat(np.arange(sizes.size), sizes)`` for positive sizes, by one ``cumsum`` (``np.repeat`` is
+    slow for many short runs)."""
+    ids = np.zeros(int(sizes.sum()), dtype=np.int64)
+    ids[np.cumsum(sizes[:-1])] = 1
+    return np.cumsum(ids, out=ids)
 
 
 def _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, node_first, nodes):
