@@ -52,8 +52,7 @@ class FastPath:
         return squared_error_best_splits(seg, min_leaf, lightest, *columns, parent, out, tie, work)
 
 
-def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uint8],
-              stats: NDArray[np.float64]) -> FastPath | None:
+def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uint8]) -> FastPath | None:
     """The specialised search for this batch, or None when only the generic one applies (user splitters,
     more classes, missing values, categories, and case weights with two classes)."""
     if data.missing or data.category_words:
@@ -63,24 +62,19 @@ def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uin
         w = counts.astype(np.int64)
         return FastPath("binary", ((w + ((w * (data.target == 1)) << 32)).ravel(),))
     if type(splitter) is SquaredErrorSplitter:
-        weight = counts.astype(np.int64).ravel() if data.weights is None else stats[0]
-        return FastPath("squared_error", (weight, stats[1]))
+        weight = counts.astype(np.int64) if data.weights is None else counts * data.stats[:, 0]
+        return FastPath("squared_error", (weight.ravel(), (counts * data.stats[:, 1]).ravel()))
     return None
 
 
-def _weighted_impurity(entropy: bool, W, c1, out, tmp):
-    """``W * i`` for Gini or entropy of ``[W, W - c1, c1]``, with the built-in splitters' operations in their
-    order (so bit-identical to them); written to ``out``, ``tmp`` is scratch."""
+def _weighted_entropy(W, c1, out, tmp):
+    """``W * i`` for the entropy of ``[W, W - c1, c1]``, with the entropy splitter's operations in its order
+    (so bit-identical to it); written to ``out``, ``tmp`` is scratch."""
     p0 = np.divide(np.subtract(W, c1, out=out), W, out=out)
     p1 = np.divide(c1, W, out=tmp)
-    if entropy:
-        s = np.multiply(p0, np.log(np.where(p0 > 0.0, p0, 1.0)), out=p0)
-        s += p1 * np.log(np.where(p1 > 0.0, p1, 1.0))
-        np.negative(s, out=s)
-    else:
-        s = np.multiply(p0, p0, out=p0)
-        s += np.multiply(p1, p1, out=p1)
-        np.subtract(1.0, s, out=s)
+    s = np.multiply(p0, np.log(np.where(p0 > 0.0, p0, 1.0)), out=p0)
+    s += p1 * np.log(np.where(p1 > 0.0, p1, 1.0))
+    np.negative(s, out=s)
     np.maximum(s, 0.0, out=s)
     s *= W
     return s
@@ -120,37 +114,49 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
     ``packed`` holds the packed statistics of the level's items."""
     L = seg.item.size
     elem = np.take(packed, seg.item, out=scratch(work, "elem", L, np.int64), mode="clip")
-    total = np.add.reduceat(elem, seg.start)
-    elem[seg.start[1:]] -= total[:-1]
-    left = np.cumsum(elem, out=elem)
-    right = np.take(total, seg.cand_of, out=scratch(work, "right", L, np.int64), mode="clip")
+    left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
+    right = segment_broadcast(total, seg.start, out=seg.code)  # the codes are spent: their buffer is reused
     right -= left
-    entropy = type(splitter) is EntropySplitter
+    (wl, cl), (wr, cr) = _halves(left), _halves(right)
+    _exclude_light(seg.no_cut, wl, wr, min_leaf, lightest)
+    heavier_left = np.greater_equal(wl, wr, out=scratch(work, "heavier_left", L, np.bool_))
     with np.errstate(divide="ignore", invalid="ignore"):
-        wl, cl = _unpack(left, work, ("wl", "cl"))
-        wr, cr = _unpack(right, work, ("wr", "cr"))
-        score = np.take(parent[seg.cand_node], seg.cand_of, out=scratch(work, "score", L, np.float64), mode="clip")
-        tmp = scratch(work, "tmp1", L, np.float64)
-        if entropy:
-            score -= _weighted_impurity(entropy, wl, cl, scratch(work, "imp", L, np.float64), tmp)
-            score -= _weighted_impurity(entropy, wr, cr, scratch(work, "imp", L, np.float64), tmp)
+        score = scratch(work, "score", L, np.float64)  # minus the children's W i: the decrease less W_t i(t)
+        if type(splitter) is EntropySplitter:
+            tmp = scratch(work, "tmp1", L, np.float64)
+            wl, cl = _unpack(left, work, ("wl", "cl"))
+            wr, cr = _unpack(right, work, ("wr", "cr"))
+            np.negative(_weighted_entropy(wl, cl, score, tmp), out=score)
+            score -= _weighted_entropy(wr, cr, scratch(work, "imp", L, np.float64), tmp)
         else:
-            score -= _weighted_gini_children(wl, cl, wr, cr, scratch(work, "imp", L, np.float64), tmp)
-    return _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr)
+            np.negative(_weighted_gini(wl, cl, score), out=score)
+            score -= _weighted_gini(wr, cr, left.view(np.float64))  # the left sums are spent: reuse
+    return _pick(seg, parent, parent, out, tie, score, heavier_left)
 
 
-def _weighted_gini_children(wl, cl, wr, cr, out, tmp):
-    """``W_l i(l) + W_r i(r)`` for two-class Gini: ``W (1 - p0**2 - p1**2) = 2 c0 c1 / W``, from the exact
-    integer counts (as floats; products exact below 2**53), so with one rounding per side."""
-    left = np.subtract(wl, cl, out=out)
-    left *= cl
-    left /= wl
-    right = np.subtract(wr, cr, out=tmp)
-    right *= cr
-    right /= wr
-    left += right
-    left *= 2.0
-    return left
+def _exclude_light(no_cut, wl, wr, min_leaf: float, lightest: float) -> None:
+    """Mark the cuts that leave less than ``min_leaf`` on a side (none can when every case weighs more)."""
+    if min_leaf > lightest:
+        no_cut |= wl < min_leaf
+        no_cut |= wr < min_leaf
+
+
+def segment_broadcast(total: NDArray[np.int64], start: NDArray[np.int64], out: NDArray[np.int64]):
+    """``out[e] = total[segment of e]`` for integers, by one ``cumsum`` of the steps at segment starts."""
+    out[:] = 0
+    out[start[1:]] = np.diff(total)
+    out[0] = total[0]
+    return np.cumsum(out, out=out)
+
+
+def _weighted_gini(W, c1, out):
+    """``W i`` for two-class Gini: ``W (1 - p0**2 - p1**2) = 2 c0 c1 / W``, from the exact integer counts
+    (int32 views; the product is formed in floats, exact below 2**53), so with one rounding."""
+    g = np.subtract(W, c1, out=out, dtype=np.float64)
+    g *= c1
+    g /= W
+    g *= 2.0
+    return g
 
 
 def squared_error_best_splits(seg, min_leaf: float, lightest: float, weight, first, parent, out, tie: float,
@@ -165,51 +171,45 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, weight, fir
     L = seg.item.size
     w = np.take(weight, seg.item, out=scratch(work, "w", L, weight.dtype), mode="clip")
     s = np.take(first, seg.item, out=scratch(work, "s", L, np.float64), mode="clip")
-    left_w, total_w = running_sums(w, seg.start, seg.cand_tree, scratch(work, "left_w", L, weight.dtype))
-    left_s, total_s = running_sums(s, seg.start, seg.cand_tree, scratch(work, "left_s", L, np.float64))
-    right_w = np.take(total_w, seg.cand_of, out=w, mode="clip")
+    left_w, total_w = running_sums(w, seg.start, seg.cand_tree, out=w)
+    left_s, total_s = running_sums(s, seg.start, seg.cand_tree, out=s)
+    right_w = np.take(total_w, seg.cand_of, out=scratch(work, "right_w", L, weight.dtype), mode="clip")
     right_w -= left_w
-    right_s = np.take(total_s, seg.cand_of, out=s, mode="clip")
-    right_s -= left_s
-    if weight.dtype != np.float64:
-        left_w = _as_float(left_w, scratch(work, "wl", L, np.float64))
-        right_w = _as_float(right_w, scratch(work, "wr", L, np.float64))
+    _exclude_light(seg.no_cut, left_w, right_w, min_leaf, lightest)
+    heavier_left = np.greater_equal(left_w, right_w, out=scratch(work, "heavier_left", L, np.bool_))
     with np.errstate(divide="ignore", invalid="ignore"):
         score = np.multiply(left_s, left_s, out=scratch(work, "score", L, np.float64))
         score /= left_w
-        tmp = np.multiply(right_s, right_s, out=scratch(work, "tmp1", L, np.float64))
+        tmp = np.take(total_s, seg.cand_of, out=scratch(work, "tmp1", L, np.float64), mode="clip")
+        tmp -= left_s
+        tmp *= tmp
         tmp /= right_w
         score += tmp
-        score -= np.take(total_s * total_s / total_w, seg.cand_of, out=tmp, mode="clip")
-    return _pick(seg, min_leaf, lightest, parent, out, tie, work, score, left_w, right_w)
+    base = np.zeros_like(parent)  # the decrease is score - S**2 / W of the node (from its first candidate)
+    base[seg.cand_node[seg.node_first]] = -total_s[seg.node_first] ** 2 / total_w[seg.node_first]
+    return _pick(seg, parent, base, out, tie, score, heavier_left)
 
 
-def _as_float(values, out):
-    np.copyto(out, values, casting="unsafe")
-    return out
+def _pick(seg, parent, base, out, tie, score, heavier_left):
+    """Mask the boundaries that are no valid cut (``seg.no_cut``, segment ends), then record the first
+    best-scoring cut of every node in ``out``.
 
-
-def _pick(seg, min_leaf, lightest, parent, out, tie, work, score, wl, wr):
-    """Mask the invalid boundaries, then record the first best-scoring cut of every node in ``out``."""
-    L = seg.item.size
-    invalid = scratch(work, "valid", L, np.bool_)
-    np.equal(seg.code[1:], seg.code[:-1], out=invalid[:-1])
-    invalid[-1] = True
+    A cut's decrease is ``base[node] + score``; ties are judged on the decrease, at the scale of the larger
+    of the best decrease and the parent's ``W i(t)``. Segments are never empty (every candidate belongs to
+    a node that has items).
+    """
+    invalid = seg.no_cut
     invalid[seg.start[1:] - 1] = True
-    if min_leaf > lightest:
-        invalid |= wl < min_leaf
-        invalid |= wr < min_leaf
     np.putmask(score, invalid, -np.inf)
     node_first, nodes = seg.node_first, seg.cand_node[seg.node_first]
-    if not np.all(seg.size > 0):
-        return _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, node_first, nodes)
     top = np.maximum.reduceat(score, seg.start)
     best = np.maximum.reduceat(top, node_first)
     with np.errstate(invalid="ignore"):
-        bar = best - tie * np.maximum(np.abs(best), np.abs(parent[nodes]))
+        bar = best - tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes]))
     found = best > -np.inf
     pick = _first_reaching(seg.start, seg.size, score, top, bar, node_first, found)
-    return record_cuts(seg, out, nodes[found], pick, score[pick], wl[pick] >= wr[pick])
+    nodes = nodes[found]
+    return record_cuts(seg, out, nodes, pick, base[nodes] + score[pick], heavier_left[pick])
 
 
 def _first_reaching(start, size, score, top, bar, node_first, found):
@@ -235,24 +235,6 @@ def run_ids(sizes: NDArray[np.int64]) -> NDArray[np.int64]:
     return np.cumsum(ids, out=ids)
 
 
-def _pick_elementwise(seg, parent, out, tie, work, score, wl, wr, node_first, nodes):
-    """:func:`_pick`'s choice by a pass over all elements (any segment may be empty)."""
-    L = seg.item.size
-    starts = seg.start[node_first]
-    best = np.maximum.reduceat(score, starts)
-    with np.errstate(invalid="ignore"):
-        bar = best - tie * np.maximum(np.abs(best), np.abs(parent[nodes]))
-    node_of_cand = np.zeros(seg.cand_node.size, dtype=np.int64)
-    node_of_cand[node_first[1:]] = 1
-    node_of = np.take(np.cumsum(node_of_cand), seg.cand_of, out=scratch(work, "node_of", L, np.int64), mode="clip")
-    barred = np.take(bar, node_of, out=scratch(work, "tmp1", L, np.float64), mode="clip")
-    tied = np.flatnonzero(np.greater_equal(score, barred, out=scratch(work, "valid", L, np.bool_)))
-    pick = tied[np.searchsorted(tied, starts)]
-    found = best > -np.inf
-    nodes, pick = nodes[found], pick[found]
-    return record_cuts(seg, out, nodes, pick, score[pick], wl[pick] >= wr[pick])
-
-
 def record_cuts(seg, out, nodes, element, decrease, heavier_left):
     """Write the cut after sorted ``element`` of each of ``nodes`` into ``out``: its feature, the midpoint of
     the neighbouring distinct values as threshold (the lower value where the midpoint rounds onto the upper
@@ -260,7 +242,7 @@ def record_cuts(seg, out, nodes, element, decrease, heavier_left):
     lo, hi = seg.values(element), seg.values(element + 1)
     threshold = 0.5 * lo + 0.5 * hi
     out.found[nodes] = True
-    out.feature[nodes] = seg.cand_feat[seg.cand_of[element]]
+    out.feature[nodes] = seg.cand_feat[seg.candidate(element)]
     out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
     out.decrease[nodes] = decrease
     out.missing_left[nodes] = heavier_left

@@ -11,14 +11,18 @@ from ._validation import Target
 
 __all__ = ["data_fingerprint", "check_same_data"]
 
+_BLOCK_BYTES = 1 << 20
+
 
 def data_fingerprint(X: NDArray[np.float64], target: Target) -> str:
     """sha256 of the shape, the validated ``X`` (NaN and -0.0 made canonical), the task, target codes and labels."""
     h = hashlib.sha256()
     h.update(repr((X.shape, target.task)).encode())
-    canonical = np.ascontiguousarray(X, dtype=np.float64) + 0.0   # -0.0 and 0.0 split alike
-    canonical[np.isnan(canonical)] = np.nan                        # one bit pattern for a missing value
-    h.update(canonical.tobytes())
+    rows = max(1, _BLOCK_BYTES // max(1, 8 * X.shape[1]))
+    for lo in range(0, X.shape[0], rows):  # in row blocks: no copy of the whole of X
+        canonical = np.ascontiguousarray(X[lo:lo + rows], dtype=np.float64) + 0.0   # -0.0 and 0.0 split alike
+        canonical[np.isnan(canonical)] = np.nan                                    # one bit pattern for NaN
+        h.update(canonical.data)
     h.update(np.ascontiguousarray(target.values).tobytes())
     if target.classes is not None:
         h.update(repr(target.classes.tolist()).encode())

@@ -273,6 +273,7 @@ class Forest:
         self._data = presort(X, target.values, stats, classes, categories,
                              growth_weights(case_weights, class_vector, target.values),
                              target.values if self._settings.balance else None)
+        del stats  # presort keeps its own weighted copy
         self._categories = self._data.categories
         self._rules = rules
         self.task = target.task

@@ -8,6 +8,7 @@ draws and the running sums) over the trees of the batch.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -36,36 +37,43 @@ class GrowthRules:
     replace: bool
 
 
-@dataclass(frozen=True)
 class _Batch:
-    """Weighted statistics of a batch of trees, channel-major: ``stats[c, slot * n + row]``."""
+    """The in-bag counts of a batch of trees, their statistics for the search, and scratch buffers.
 
-    stats: NDArray[np.float64]
-    lightest: float  # smallest positive case weight; a min_leaf at most this needs no weight checks
-    fast: FastPath | None  # the same packed for a specialised search, if one applies
-    work: Workspace  # scratch buffers of the search, reused from level to level
+    ``stats`` (channel-major, ``stats[c, slot * n + row]`` = count times the case's weighted statistics) is
+    formed only when the generic search or summaries ask for it.
+    """
 
-    @classmethod
-    def weighted(cls, data: TrainingData, counts: NDArray[np.uint8], splitter: CartSplitter) -> _Batch:
-        stats = (data.stats.T[:, None, :] * counts[None, :, :]).reshape(data.stats.shape[1], -1)
-        positive = stats[0][stats[0] > 0]
-        return cls(stats, float(positive.min()) if positive.size else 1.0, fast_path(data, splitter, counts, stats),
-                   Workspace())
+    def __init__(self, data: TrainingData, counts: NDArray[np.uint8], splitter: CartSplitter,
+                 work: Workspace) -> None:
+        self.data, self.counts, self.work = data, counts, work
+        self.fast: FastPath | None = fast_path(data, splitter, counts)  # a specialised search, if one applies
+        weighted = counts > 0 if data.weights is None else (counts > 0) & (data.weights > 0)
+        self.rows = [np.flatnonzero(drawn) for drawn in weighted]  # in-bag cases of positive weight per tree
+        # smallest positive weight of a drawn case; a min_leaf at most this needs no weight checks
+        self.lightest = 1.0 if data.weights is None or not weighted.any() else \
+            float((counts * data.weights)[weighted].min())
+
+    @functools.cached_property
+    def stats(self) -> NDArray[np.float64]:
+        data, counts = self.data, self.counts
+        return (data.stats.T[:, None, :] * counts[None, :, :]).reshape(data.stats.shape[1], -1)
 
 
-def grow_batch(data: TrainingData, rules: GrowthRules,
-               seeds: list[np.random.SeedSequence]) -> tuple[list[TreeArrays], NDArray[np.uint8]]:
+def grow_batch(data: TrainingData, rules: GrowthRules, seeds: list[np.random.SeedSequence],
+               work: Workspace | None = None) -> tuple[list[TreeArrays], NDArray[np.uint8]]:
     """Grow one tree per seed; returns the trees and their in-bag counts, shape ``(len(seeds), n)``.
 
     Each tree draws its bootstrap sample first and then, level by level, its candidate features, only from
-    its own generator; every sum is taken within one tree, so a tree does not depend on its batch.
+    its own generator; every sum is taken within one tree, so a tree does not depend on its batch. ``work``
+    lends scratch buffers that batches grown one after another may share.
     """
     gens = [np.random.default_rng(s) for s in seeds]
     n = data.rows
     counts = np.stack([draw_counts(g, n, rules.sample_size, rules.replace, data.strata) for g in gens])
     subspace = _tree_masks(rules.sampler, gens, data.features)
-    batch = _Batch.weighted(data, counts, rules.splitter)
-    rows = [np.flatnonzero(w > 0) for w in batch.stats[0].reshape(len(gens), n)]
+    batch = _Batch(data, counts, rules.splitter, Workspace() if work is None else work)
+    rows = batch.rows
     empty = [b for b, r in enumerate(rows) if r.size == 0]
     if empty:
         raise ValueError(f"the bootstrap sample of tree {seeds[empty[0]].spawn_key[-1]} holds only cases of "
@@ -138,19 +146,21 @@ def _node_summaries(data: TrainingData, batch, items: Items, K: int):
 
 def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, closed, open_nodes):
     """Best split of every open node; per-node samplers fall back to the other features if none splits."""
-    keep = np.flatnonzero(~closed[items.node])
-    relabel = np.cumsum(~closed) - 1
-    sub_items = Items(items.row[keep], relabel[items.node[keep]], items.wi[keep])
+    if closed.any():
+        keep = np.flatnonzero(~closed[items.node])
+        sub_items = Items(items.row[keep], (np.cumsum(~closed) - 1)[items.node[keep]], items.wi[keep])
+    else:
+        sub_items = items
     sub_tree = node_tree[open_nodes]
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * checked_impurity(rules.splitter, totals[open_nodes])
-    search = (data, rules.splitter, rules.min_leaf, batch.stats, batch.lightest)
-    splits = best_splits(*search, sub_items, sub_tree, mask, parent, batch.fast, batch.work)
+    search = (data, rules.splitter, rules.min_leaf, batch)
+    splits = best_splits(*search, sub_items, sub_tree, mask, parent)
     if rules.sampler.per_tree or splits.found.all():
         return splits
     retry = ~mask & ~splits.found[:, None]
     again = best_splits(*search, sub_items.take(np.flatnonzero(~splits.found[sub_items.node])), sub_tree, retry,
-                        parent, batch.fast, batch.work)
+                        parent)
     splits.update(again.found, again, again.found)
     return splits
 

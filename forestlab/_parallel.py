@@ -44,6 +44,7 @@ from ._presort import TrainingData
 from ._progress import ProgressCallback, progress_callback
 from ._seeding import tree_seed
 from ._tree import Tree
+from ._workspace import Workspace
 
 __all__ = ["TreeGrowthError", "grow_block", "grow_trees", "plan_blocks", "start_method"]
 
@@ -82,12 +83,15 @@ class _BlockFailed(Exception):
 
 
 # ------------------------------------------------------------------------------------------- the work
-def grow_block(data: TrainingData, rules: GrowthRules, root: np.random.SeedSequence, ids: Sequence[int]) -> Grown:
-    """Grow trees ``ids`` (spawn indices under ``root``) in one batch; a pure function of its arguments."""
-    return grow_batch(data, rules, [tree_seed(root, b) for b in ids])
+def grow_block(data: TrainingData, rules: GrowthRules, root: np.random.SeedSequence, ids: Sequence[int],
+               work: Workspace | None = None) -> Grown:
+    """Grow trees ``ids`` (spawn indices under ``root``) in one batch; a pure function of its arguments
+    (``work`` lends scratch buffers, see :class:`~forestlab._workspace.Workspace`)."""
+    return grow_batch(data, rules, [tree_seed(root, b) for b in ids], work)
 
 
 _current: tuple[NDArray[np.int64], int] | None = None  # (board, block) being grown in this worker process
+_pool_workspace: Workspace | None = None  # scratch buffers shared by the blocks of one of our own workers
 
 
 def _grow_block_shared(handle: _shared.SegmentHandle, board_handle: _shared.SegmentHandle, k: int,
@@ -98,7 +102,7 @@ def _grow_block_shared(handle: _shared.SegmentHandle, board_handle: _shared.Segm
     _current = (board, k)  # first, so that a SIGTERM from now on marks the block as stopped
     try:
         board[k] = (os.getpid(), _shared.STARTED)
-        grown = grow_block(_shared.attach(handle), rules, root, ids)
+        grown = grow_block(_shared.attach(handle), rules, root, ids, _pool_workspace)
         board[k, 1] = _shared.DONE
     except BaseException:
         board[k, 1] = _shared.FAILED
@@ -110,6 +114,8 @@ def _grow_block_shared(handle: _shared.SegmentHandle, board_handle: _shared.Segm
 
 def _init_worker(parent: int) -> None:
     """Initializer of our own pool's workers (see the module docstring)."""
+    global _pool_workspace
+    _pool_workspace = Workspace()
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, _on_terminate)
     threading.Thread(target=_watch_parent, args=(parent,), daemon=True).start()
@@ -214,8 +220,9 @@ def _run_here(data, rules, root, blocks, report) -> list[Grown]:
     total = sum(map(len, blocks))
     results, done = [], 0
     _report(report, 0, total)
+    work = Workspace()
     for ids in blocks:
-        results.append(grow_block(data, rules, root, ids))
+        results.append(grow_block(data, rules, root, ids, work))
         done += len(ids)
         _report(report, done, total)
     return results

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import FastPath, record_cuts
+from ._fast_search import record_cuts
 from ._categorical import category_order, left_sets
 from ._presort import TrainingData
 from ._running import running_sums
@@ -73,8 +73,11 @@ def checked_impurity(splitter: CartSplitter, S: NDArray[np.float64]) -> NDArray[
 class _Segments:
     """The items of every (node, candidate feature) pair, sorted by that feature, concatenated.
 
-    ``code`` is ``candidate << dense_bits | dense rank``: neighbours with equal codes hold equal values of
-    the same candidate. The generic search also fills ``x``, ``wi`` and ``row`` (:meth:`materialise`).
+    ``code`` is ``candidate << dense_bits | dense rank`` per element; ``no_cut[e]`` is True where element
+    ``e`` and the next hold equal values of the same candidate (and at the last element): no cut lies after
+    such an element. A fast search may reuse ``code`` as scratch once it has what it needs (``cand_of`` is
+    then kept, if it was asked for before). The generic search also fills ``x``, ``wi`` and ``row``
+    (:meth:`materialise`).
     """
 
     cand_node: NDArray[np.int64]   # (C,) node of each candidate
@@ -85,10 +88,10 @@ class _Segments:
     node_first: NDArray[np.int64]  # first candidate of every node that has candidates
     item: NDArray[np.int64]        # (L,) the level's item of each element
     code: NDArray[np.int64]        # (L,) candidate and dense rank of each element
+    no_cut: NDArray[np.bool_]      # (L,) equal value next (scratch: a search may add its own exclusions)
     dense_bits: int
     items: Items
     X: NDArray[np.float64]
-    work: Workspace | None = None
     x: NDArray[np.float64] | None = None   # (L,) feature value (category position for categorical), NaN last
     wi: NDArray[np.int64] | None = None    # (L,) index of each element's (tree, row) in the weighted statistics
     row: NDArray[np.int64] | None = None   # (L,) training row of each element
@@ -96,18 +99,20 @@ class _Segments:
 
     @property
     def cand_of(self) -> NDArray[np.int64]:
-        """(L,) candidate of each element."""
+        """(L,) candidate of each element (formed in place of ``code``)."""
         if self._cand_of is None:
-            self._cand_of = np.right_shift(self.code, self.dense_bits,
-                                           out=scratch(self.work, "cand_of", self.code.size, np.int64))
+            self._cand_of = np.right_shift(self.code, self.dense_bits, out=self.code)
         return self._cand_of
+
+    def candidate(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
+        """Candidate of the given elements (segments are never empty)."""
+        return np.searchsorted(self.start, element, side="right") - 1
 
     def values(self, element: NDArray[np.intp]) -> NDArray[np.float64]:
         """Feature values of the given elements."""
         if self.x is not None:
             return self.x[element]
-        feature = self.cand_feat[self.cand_of[element]]
-        return self.X[self.items.row[self.item[element]], feature]
+        return self.X[self.items.row[self.item[element]], self.cand_feat[self.candidate(element)]]
 
     def materialise(self) -> None:
         """Fill ``row``, ``wi`` and ``x`` (NaN for missing values) for the generic search."""
@@ -116,23 +121,25 @@ class _Segments:
         self.x = self.X.ravel()[self.row * self.X.shape[1] + self.cand_feat[self.cand_of]]
 
 
-def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, stats, lightest: float,
-                items: Items, node_tree, mask, parent, fast: FastPath | None = None,
-                work: Workspace | None = None) -> Splits:
+def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, batch, items: Items, node_tree, mask,
+                parent) -> Splits:
     """Exact best split of every node over its candidate features.
 
     Ties (scores within a relative 1e-12): lowest feature, then smallest threshold, then missing cases sent
-    right. ``stats`` is the batch's channel-major weighted statistics, ``parent`` the nodes' ``W * i(t)``;
-    ``fast``, when given, the same statistics packed for one of :mod:`._fast_search`'s searches; ``work``
-    holds scratch buffers reused from level to level (results never live in it).
+    right. ``batch`` holds the batch's statistics: ``stats`` (channel-major weighted statistics, formed when
+    first read), ``lightest`` (smallest positive case weight), ``fast`` (the statistics packed for one of
+    :mod:`._fast_search`'s searches, or None) and ``work`` (scratch buffers reused from level to level;
+    results never live in them). ``parent`` holds the nodes' ``W * i(t)``.
     """
     out = Splits.none(mask.shape[0], data.category_words)
     cand = np.flatnonzero(mask)
     if cand.size == 0 or items.row.size == 0:
         return out
-    seg = _sorted_segments(data, items, node_tree, mask, cand, work)
-    if fast is not None:
-        return fast.best_splits(seg, splitter, min_leaf, lightest, items, parent, out, TIE_TOLERANCE, work)
+    seg = _sorted_segments(data, items, node_tree, mask, cand, batch.work)
+    if batch.fast is not None:
+        return batch.fast.best_splits(seg, splitter, min_leaf, batch.lightest, items, parent, out, TIE_TOLERANCE,
+                                      batch.work)
+    stats, lightest = batch.stats, batch.lightest
     seg.materialise()
     order = _order_categories(data, seg, stats[0]) if data.category_words else None
     elem = np.take(stats, seg.wi, axis=1)
@@ -223,7 +230,8 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wo
 
     Each pair's key is ``code << item_bits | item`` with ``code = candidate << dense_bits | dense rank``:
     sorting the keys sorts every candidate's items by value, ties in item order, and the item comes back
-    in the low bits. Should the key need more than 63 bits, a stable argsort of the codes does the same.
+    in the low bits; neighbours with equal codes hold equal values. Should the key need more than 63 bits,
+    a stable argsort of the codes does the same.
     """
     p = data.features
     K = mask.shape[0]
@@ -246,10 +254,13 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wo
         perm = np.argsort(code, kind="stable")
         item = perm % N if pair_item is None else pair_item[perm]
         code = code[perm]
+    no_cut = scratch(work, "no_cut", code.size, np.bool_)
+    np.equal(code[1:], code[:-1], out=no_cut[:-1])
+    no_cut[-1] = True
     size = np.bincount(items.node, minlength=K)[cand_node]
     start = np.cumsum(size) - size
     return _Segments(cand_node, cand_feat, node_tree[cand_node], start, size, first[ncand > 0], item, code,
-                     data.dense_bits, items, data.X, work)
+                     no_cut, data.dense_bits, items, data.X)
 
 
 def _pair_codes(data: TrainingData, items: Items, cand_feat, ncand, first, work: Workspace | None = None,

@@ -155,9 +155,9 @@ class TestBatching:
         batches = []
         original = parallel_module.grow_batch
 
-        def spy(data, rules, seeds):
+        def spy(data, rules, seeds, work=None):
             batches.append(len(seeds))
-            return original(data, rules, seeds)
+            return original(data, rules, seeds, work)
 
         monkeypatch.setattr(parallel_module, "grow_batch", spy)
         monkeypatch.setattr(forest_module, "BATCH_ITEMS", 10**9)
