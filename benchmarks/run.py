@@ -14,9 +14,11 @@ What is measured
 * ``per_tree``: nanoseconds per (row, tree) of ``forest.per_tree(X_test)`` on fully grown trees.
 * ``oob``: time of the first ``forest.oob`` access (every attribute read, the error curve included) as a
   fraction of the fit time; skipped with a note while the forest has no ``oob``.
-* ``working memory``: a fit in a fresh subprocess; peak resident set (``ru_maxrss``) minus the resident set
-  just before the fit (interpreter, NumPy, X, y) minus the presort arrays and the fitted forest (trees and
-  in-bag counts), in multiples of the bytes of X. ``tracemalloc``'s peak of the same fit is shown beside it.
+* ``working memory``: a fit in a fresh subprocess; peak resident set (``VmHWM``, reset after X is made)
+  minus the resident set just before the fit (interpreter, NumPy, X, y) minus the arrays the forest keeps
+  of its data (ranks, statistics, targets) and the fitted forest (trees and in-bag counts), in multiples of
+  the bytes of X. ``tracemalloc``'s peak of the same fit is shown beside it (it does not see the grower's
+  scratch buffers, which are memory maps of their own).
 * ``storage``: bytes of all node arrays of a fitted forest per node.
 * ``growth``: fit time at the larger n over fit time at the smaller n (p = 10); n log n would be 12.5x for
   10 000 -> 100 000.
@@ -39,7 +41,6 @@ import json
 import math
 import os
 import platform
-import resource
 import shutil
 import statistics
 import subprocess
@@ -257,23 +258,31 @@ def bench_oob(spec, repeats, log):
 
 
 def memory_child(n, p, trees) -> dict:
-    """Run in a fresh process: one fit, its peak memory beyond X, presort and forest."""
+    """Run in a fresh process: one fit, its peak memory beyond X, presort and forest.
+
+    The process's high-water mark is reset after the data are made (Linux ``/proc/self/clear_refs``), so the
+    temporaries of generating X do not count; the peak is the kernel's ``VmHWM`` after the fit.
+    """
+    import gc
     import tracemalloc
 
     data = make_data("twonorm", n, p)
     X, y = data["X"], forestlab_target(data)
-    page = os.sysconf("SC_PAGE_SIZE")
-    with open("/proc/self/statm") as f:
-        rss_before = int(f.read().split()[1]) * page
+    del data
+    gc.collect()
+    with open("/proc/self/clear_refs", "w") as f:
+        f.write("5")  # reset the peak resident set to the current one
+    rss_before = _status_kib("VmRSS") * 1024
     tracemalloc.start()
     tracemalloc.reset_peak()
     traced_before = tracemalloc.get_traced_memory()[0]
     forest = fl.Forest(trees=trees, sampler=int(math.sqrt(p)), min_leaf=1, rng=1).fit(X, y)
     traced_peak = tracemalloc.get_traced_memory()[1] - traced_before
     tracemalloc.stop()
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024  # KiB on Linux
-    d = forest._data
-    presort = sum(a.nbytes for a in (d.order, d.sorted_x, d.rank, d.stats, d.target))
+    peak = _status_kib("VmHWM") * 1024
+    d = forest._data  # every array the fitted forest keeps of its data except X itself (the caller's)
+    presort = sum(getattr(d, f.name).nbytes for f in fields(d)
+                  if isinstance(getattr(d, f.name), np.ndarray) and f.name != "X")
     fitted = forest_bytes(forest)[0] + forest.inbag.nbytes
     return {"n": n, "p": p, "trees": trees, "x_bytes": X.nbytes, "presort_bytes": presort,
             "forest_bytes": fitted, "rss_before": rss_before, "peak_rss": peak,
@@ -281,9 +290,18 @@ def memory_child(n, p, trees) -> dict:
             "working_traced": traced_peak - presort - fitted}
 
 
+def _status_kib(field: str) -> int:
+    """A ``kB`` field of ``/proc/self/status``."""
+    with open("/proc/self/status") as f:
+        for line in f:
+            if line.startswith(field + ":"):
+                return int(line.split()[1])
+    raise KeyError(field)
+
+
 def bench_memory(spec, log):
-    if not Path("/proc/self/statm").exists():
-        return {"skipped": "needs /proc (Linux)"}
+    if not Path("/proc/self/clear_refs").exists():
+        return {"skipped": "needs /proc/self/clear_refs (Linux)"}
     cmd = [sys.executable, str(Path(__file__).resolve()), "--memory-child",
            f"{spec['n']},{spec['p']},{spec['trees']}"]
     env = dict(os.environ, PYTHONPATH=str(REPO))
