@@ -44,7 +44,7 @@ from ._presort import TrainingData
 from ._progress import ProgressCallback, progress_callback
 from ._seeding import tree_seed
 from ._tree import Tree
-from ._workspace import Workspace
+from ._workspace import Workspace, keep_freed_memory
 
 __all__ = ["TreeGrowthError", "grow_block", "grow_trees", "plan_blocks", "start_method"]
 
@@ -116,6 +116,7 @@ def _init_worker(parent: int) -> None:
     """Initializer of our own pool's workers (see the module docstring)."""
     global _pool_workspace
     _pool_workspace = Workspace()
+    keep_freed_memory()
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, _on_terminate)
     threading.Thread(target=_watch_parent, args=(parent,), daemon=True).start()
@@ -204,6 +205,7 @@ def grow_trees(data: TrainingData, rules: GrowthRules, root: np.random.SeedSeque
     """
     report = progress_callback(progress)
     blocks = plan_blocks(tree_ids, batch, _parallelism(executor, workers))
+    keep_freed_memory()
     if executor is None and workers == 1:
         return _assemble(_run_here(data, rules, root, blocks, report))
     if executor is None:
