@@ -24,7 +24,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ._results import OutOfBag
-from ._tree import Tree, leaf_index
+from ._tree import Tree, leaf_index, stacked_leaf_values
 from ._validation import Target
 from ._warnings import NeverOutOfBagWarning
 
@@ -49,14 +49,25 @@ class _Entries:
 
 
 def oob_entries(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float64]) -> _Entries:
-    """Each tree's prediction for its own OOB rows only (one level-wise pass per tree)."""
+    """Each tree's prediction for its own OOB rows only: numeric trees in blocks of about ``_PAIRS`` (tree,
+    row) pairs pushed down together, others one level-wise pass per tree."""
     tree_of, row = np.nonzero(inbag == 0)
     start = np.searchsorted(tree_of, np.arange(len(trees) + 1))
     value = np.empty(row.size)
+    if not np.isnan(X).any() and all(tree.category_left.shape[1] == 0 for tree in trees):
+        per_block = max(1, _PAIRS // max(1, X.shape[0]))
+        for b0 in range(0, len(trees), per_block):
+            b1 = min(b0 + per_block, len(trees))
+            s, e = start[b0], start[b1]
+            value[s:e] = stacked_leaf_values(trees[b0:b1], tree_of[s:e] - b0, row[s:e], X)
+        return _Entries(row=row, value=value, start=start)
     for b, tree in enumerate(trees):
         s, e = start[b], start[b + 1]
         value[s:e] = tree.value[leaf_index(tree, X[row[s:e]])]
     return _Entries(row=row, value=value, start=start)
+
+
+_PAIRS = 1 << 19  # (tree, row) pairs pushed down one tree block together (a few MB of working arrays)
 
 
 def out_of_bag(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float64], target: Target,

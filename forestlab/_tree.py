@@ -9,7 +9,7 @@ from numpy.typing import NDArray
 
 from ._categorical import in_left_set
 
-__all__ = ["NODE_STORAGE", "Tree", "TreeArrays", "goes_right", "leaf_index"]
+__all__ = ["NODE_STORAGE", "Tree", "TreeArrays", "goes_right", "leaf_index", "stacked_leaf_values"]
 
 
 def _read_only(arr: NDArray) -> NDArray:
@@ -173,23 +173,52 @@ def _numeric_steps(tree: Tree):
 
 def _descend(step, X: NDArray[np.float64]) -> NDArray[np.intp]:
     """Leaf of every row of a block of ``X`` (no NaN), compacting the rows still on their way every level."""
-    feature, threshold, left, leaf = step
-    flat = X.ravel()
     n, p = X.shape
-    node = np.empty(n, dtype=np.intp)
-    active = np.arange(n)
-    base = active * p
-    here = np.zeros(n, dtype=np.intp)
-    while True:
-        at_leaf = leaf[here]
-        if at_leaf.any():
-            done = np.flatnonzero(at_leaf)
-            node[active[done]] = here[done]
-            inner = np.flatnonzero(~at_leaf)
-            if inner.size == 0:
-                return node
-            active, base, here = active[inner], base[inner], here[inner]
+    return _descend_from(step, X.ravel(), np.arange(n) * p, np.zeros(n, dtype=np.intp))
+
+
+def _descend_from(step, flat: NDArray[np.float64], base: NDArray[np.intp], here: NDArray[np.intp]):
+    """Leaf reached by every (row, start node) pair: row ``i`` reads ``flat[base[i] + feature]``.
+
+    Leaves are self-loops, so a row that has arrived stays put; the rows still moving are compacted every
+    ``_COMPACT_EVERY`` levels (a check and compaction each level would cost more than the steps it saves).
+    """
+    feature, threshold, left, leaf = step
+    node = np.empty(here.size, dtype=np.intp)
+    active = np.arange(here.size)
+    level = 0
+    while here.size:
+        if level % _COMPACT_EVERY == 0:
+            at_leaf = leaf[here]
+            if at_leaf.any():
+                done = np.flatnonzero(at_leaf)
+                node[active[done]] = here[done]
+                inner = np.flatnonzero(~at_leaf)
+                active, base, here = active[inner], base[inner], here[inner]
         here = left[here] + (flat[base + feature[here]] > threshold[here])
+        level += 1
+    return node
+
+
+_COMPACT_EVERY = 2
+
+
+def stacked_leaf_values(trees: list[Tree], tree_of: NDArray[np.intp], row: NDArray[np.intp],
+                        X: NDArray[np.float64]) -> NDArray[np.float64]:
+    """``trees[tree_of[i]]``'s prediction for row ``row[i]`` of ``X``, all pairs pushed down together.
+
+    For trees without categorical splits and ``X`` without missing values: the trees' node arrays are
+    stacked into one (node indices offset per tree), so every level is a handful of whole-array calls over
+    all pairs instead of one set of calls per tree.
+    """
+    steps = [_numeric_steps(tree) for tree in trees]
+    sizes = np.array([tree.nodes for tree in trees])
+    offset = np.cumsum(sizes) - sizes
+    stacked = (np.concatenate([st[0] for st in steps]), np.concatenate([st[1] for st in steps]),
+               np.concatenate([st[2] + o for st, o in zip(steps, offset)]), np.concatenate([st[3] for st in steps]))
+    values = np.concatenate([tree.value for tree in trees])
+    leaf = _descend_from(stacked, X.ravel(), row * X.shape[1], offset[tree_of])
+    return values[leaf]
 
 
 def _leaf_index_general(tree: Tree, X: NDArray[np.float64], missing: bool) -> NDArray[np.int64]:

@@ -171,6 +171,14 @@ class TestOutOfBagResult:
         assert oob.confusion.sum() == covered.sum()
         assert not np.isin(np.flatnonzero(never), oob.doubtful(threshold=2.0).case).any()
 
+    def test_no_case_ever_out_of_bag(self):
+        # subsamples of every case leave nothing out-of-bag: every result is empty, not an error (or a hang)
+        X, y = _problem(3, 40, 2, 2)
+        forest = fl.Forest(trees=3, sample_size=40, replace=False, rng=1).fit(X, y)
+        with pytest.warns(fl.NeverOutOfBagWarning, match=r"40 of 40 cases were in every bootstrap sample"):
+            oob = forest.oob
+        assert (oob.coverage == 0).all() and np.isnan(oob.error) and np.isnan(oob.error_curve).all()
+
     def test_result_is_cached_and_read_only(self):
         X, y = _problem(2, 50, 2, 3)
         forest = fl.Forest(trees=30, rng=2).fit(X, y)
