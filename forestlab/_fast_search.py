@@ -238,11 +238,13 @@ def run_ids(sizes: NDArray[np.int64]) -> NDArray[np.int64]:
 def record_cuts(seg, out, nodes, element, decrease, heavier_left):
     """Write the cut after sorted ``element`` of each of ``nodes`` into ``out``: its feature, the midpoint of
     the neighbouring distinct values as threshold (the lower value where the midpoint rounds onto the upper
-    one), the decrease, and missing values sent to the heavier child."""
+    one) and the dense rank of the lower value, the decrease, and missing values sent to the heavier child."""
     lo, hi = seg.values(element), seg.values(element + 1)
     threshold = 0.5 * lo + 0.5 * hi
+    feature = seg.cand_feat[seg.candidate(element)]
     out.found[nodes] = True
-    out.feature[nodes] = seg.cand_feat[seg.candidate(element)]
+    out.feature[nodes] = feature
+    out.cut_rank[nodes] = seg.dense[feature, seg.rows_of(element)]
     out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
     out.decrease[nodes] = decrease
     out.missing_left[nodes] = heavier_left

@@ -176,8 +176,11 @@ def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
     """Send the items of split nodes to their children (order within each tree kept)."""
     keep = np.flatnonzero(splits.found[items.node])
     row, node, wi = items.row[keep], items.node[keep], items.wi[keep]
-    go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
-                          splits.category_left, data.missing)
+    if data.missing or data.category_words:
+        go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
+                              splits.category_left, data.missing)
+    else:  # numeric without gaps: above the cut's dense rank (the nodes' values lie on either side of it)
+        go_right = data.dense.ravel()[splits.feature[node] * data.rows + row] > splits.cut_rank[node]
     child_rank = np.cumsum(splits.found) - 1
     return Items(row, 2 * child_rank[node] + go_right, wi)
 

@@ -49,15 +49,16 @@ class Splits:
     decrease: NDArray[np.float64]
     missing_left: NDArray[np.bool_]
     category_left: NDArray[np.uint64]  # (nodes, words) left-category bit sets of categorical splits
+    cut_rank: NDArray[np.int64]  # dense rank of the largest value sent left (numeric splits)
 
     @classmethod
     def none(cls, nodes: int, words: int) -> Splits:
         return cls(np.zeros(nodes, bool), np.full(nodes, -1), np.full(nodes, np.nan), np.zeros(nodes),
-                   np.zeros(nodes, bool), np.zeros((nodes, words), dtype=np.uint64))
+                   np.zeros(nodes, bool), np.zeros((nodes, words), dtype=np.uint64), np.full(nodes, -1))
 
     def update(self, where: NDArray, other: Splits, other_where: NDArray | slice = slice(None)) -> None:
         """Copy ``other``'s entries at ``other_where`` into this one's at ``where``."""
-        for name in ("found", "feature", "threshold", "decrease", "missing_left", "category_left"):
+        for name in ("found", "feature", "threshold", "decrease", "missing_left", "category_left", "cut_rank"):
             getattr(self, name)[where] = getattr(other, name)[other_where]
 
 
@@ -92,6 +93,7 @@ class _Segments:
     dense_bits: int
     items: Items
     X: NDArray[np.float64]
+    dense: NDArray[np.int32]
     x: NDArray[np.float64] | None = None   # (L,) feature value (category position for categorical), NaN last
     wi: NDArray[np.int64] | None = None    # (L,) index of each element's (tree, row) in the weighted statistics
     row: NDArray[np.int64] | None = None   # (L,) training row of each element
@@ -112,7 +114,11 @@ class _Segments:
         """Feature values of the given elements."""
         if self.x is not None:
             return self.x[element]
-        return self.X[self.items.row[self.item[element]], self.cand_feat[self.candidate(element)]]
+        return self.X[self.rows_of(element), self.cand_feat[self.candidate(element)]]
+
+    def rows_of(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
+        """Training rows of the given elements."""
+        return self.items.row[self.item[element]] if self.row is None else self.row[element]
 
     def materialise(self) -> None:
         """Fill ``row``, ``wi`` and ``x`` (NaN for missing values) for the generic search."""
@@ -260,7 +266,7 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wo
     size = np.bincount(items.node, minlength=K)[cand_node]
     start = np.cumsum(size) - size
     return _Segments(cand_node, cand_feat, node_tree[cand_node], start, size, first[ncand > 0], item, code,
-                     no_cut, data.dense_bits, items, data.X)
+                     no_cut, data.dense_bits, items, data.X, data.dense)
 
 
 def _pair_codes(data: TrainingData, items: Items, cand_feat, ncand, first, work: Workspace | None = None,
