@@ -42,6 +42,9 @@ class TrainingData:
         The case weights multiplied into ``stats`` (case weights times class weights), None when all are 1.
     strata : ndarray of int64, shape (n,), or None
         Class index of every case when each tree's bootstrap sample is drawn class-balanced, else None.
+    distinct_targets : bool
+        Regression only: whether no two cases share a target value (then a node holding two or more
+        cases is never pure).
     """
 
     X: NDArray[np.float64]
@@ -54,6 +57,7 @@ class TrainingData:
     categories: NDArray[np.int64] | None = None
     weights: NDArray[np.float64] | None = None
     strata: NDArray[np.int64] | None = None
+    distinct_targets: bool = False
 
     @property
     def category_words(self) -> int:
@@ -88,7 +92,8 @@ def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.floa
     return TrainingData(X=X, dense=dense, dense_bits=max(1, int(dense.max(initial=0)).bit_length()),
                         target=target, stats=stats, classes=classes, missing=bool(np.isnan(X).any()),
                         categories=None if categories is None or not np.any(categories) else categories,
-                        weights=weights, strata=strata)
+                        weights=weights, strata=strata,
+                        distinct_targets=not classes and np.unique(target).size == target.size)
 
 
 def dense_ranks(column: NDArray[np.float64]) -> NDArray[np.int32]:
