@@ -119,7 +119,7 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
     _exclude_light(seg.no_cut, wl, wr, min_leaf, lightest)
-    heavier_left = np.greater_equal(wl, wr, out=scratch(work, "heavier_left", L, np.bool_))
+    heavier_left = np.greater_equal(wl, wr, out=scratch(work, "heavier_left", L, np.bool_))  # the sums go
     with np.errstate(divide="ignore", invalid="ignore"):
         score = scratch(work, "score", L, np.float64)  # minus the children's W i: the decrease less W_t i(t)
         if type(splitter) is EntropySplitter:
@@ -131,14 +131,14 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
         else:
             np.negative(_weighted_gini(wl, cl, score), out=score)
             score -= _weighted_gini(wr, cr, left.view(np.float64))  # the left sums are spent: reuse
-    return _pick(seg, parent, parent, out, tie, score, heavier_left)
+    nodes, pick, decrease = _pick(seg, parent, parent, tie, score)
+    return record_cuts(seg, out, nodes, pick, decrease, heavier_left[pick])
 
 
 def _exclude_light(no_cut, wl, wr, min_leaf: float, lightest: float) -> None:
     """Mark the cuts that leave less than ``min_leaf`` on a side (none can when every case weighs more)."""
     if min_leaf > lightest:
-        no_cut |= wl < min_leaf
-        no_cut |= wr < min_leaf
+        no_cut |= np.minimum(wl, wr) < min_leaf
 
 
 def segment_broadcast(total: NDArray[np.int64], start: NDArray[np.int64], out: NDArray[np.int64]):
@@ -176,7 +176,6 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, weight, fir
     right_w = np.take(total_w, seg.cand_of, out=scratch(work, "right_w", L, weight.dtype), mode="clip")
     right_w -= left_w
     _exclude_light(seg.no_cut, left_w, right_w, min_leaf, lightest)
-    heavier_left = np.greater_equal(left_w, right_w, out=scratch(work, "heavier_left", L, np.bool_))
     with np.errstate(divide="ignore", invalid="ignore"):
         score = np.multiply(left_s, left_s, out=scratch(work, "score", L, np.float64))
         score /= left_w
@@ -187,12 +186,13 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, weight, fir
         score += tmp
     base = np.zeros_like(parent)  # the decrease is score - S**2 / W of the node (from its first candidate)
     base[seg.cand_node[seg.node_first]] = -total_s[seg.node_first] ** 2 / total_w[seg.node_first]
-    return _pick(seg, parent, base, out, tie, score, heavier_left)
+    nodes, pick, decrease = _pick(seg, parent, base, tie, score)
+    return record_cuts(seg, out, nodes, pick, decrease, left_w[pick] >= right_w[pick])
 
 
-def _pick(seg, parent, base, out, tie, score, heavier_left):
-    """Mask the boundaries that are no valid cut (``seg.no_cut``, segment ends), then record the first
-    best-scoring cut of every node in ``out``.
+def _pick(seg, parent, base, tie, score):
+    """Mask the boundaries that are no valid cut (``seg.no_cut``, segment ends), then find the first
+    best-scoring cut of every node: returns the nodes that have one, the cut elements and their decreases.
 
     A cut's decrease is ``base[node] + score``; ties are judged on the decrease, at the scale of the larger
     of the best decrease and the parent's ``W i(t)``. Segments are never empty (every candidate belongs to
@@ -209,7 +209,7 @@ def _pick(seg, parent, base, out, tie, score, heavier_left):
     found = best > -np.inf
     pick = _first_reaching(seg.start, seg.size, score, top, bar, node_first, found)
     nodes = nodes[found]
-    return record_cuts(seg, out, nodes, pick, base[nodes] + score[pick], heavier_left[pick])
+    return nodes, pick, base[nodes] + score[pick]
 
 
 def _first_reaching(start, size, score, top, bar, node_first, found):
