@@ -244,19 +244,15 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wo
     cand_node, cand_feat = np.divmod(cand, p)
     ncand = np.bincount(cand_node, minlength=K)
     first = np.cumsum(ncand) - ncand
-    code, pair_item = _pair_codes(data, items, cand_feat, ncand, first, work)
     N = items.row.size
     item_bits = max(1, (N - 1).bit_length())
     if (cand.size - 1).bit_length() + data.dense_bits + item_bits <= 63:
-        key = np.left_shift(code, item_bits, out=code)
-        if pair_item is None:
-            key.reshape(-1, N)[...] |= np.arange(N)
-        else:
-            key |= pair_item
+        key, _ = _pair_keys(data, items, cand_feat, ncand, first, item_bits, work)
         key.sort()
         item = np.bitwise_and(key, (1 << item_bits) - 1, out=scratch(work, "item", key.size, np.int64))
         code = np.right_shift(key, item_bits, out=key)
     else:
+        code, pair_item = _pair_keys(data, items, cand_feat, ncand, first, 0, work)
         perm = np.argsort(code, kind="stable")
         item = perm % N if pair_item is None else pair_item[perm]
         code = code[perm]
@@ -269,33 +265,35 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wo
                      no_cut, data.dense_bits, items, data.X, data.dense)
 
 
-def _pair_codes(data: TrainingData, items: Items, cand_feat, ncand, first, work: Workspace | None = None,
-                ) -> tuple[NDArray[np.int64], NDArray[np.int64] | None]:
-    """``candidate << dense_bits | dense[feature, row]`` for every (item, candidate of its node) pair, and
-    the item of every pair (None when the pairs are slot-major: pair ``j * N + i`` is item ``i``)."""
+def _pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_bits: int,
+               work: Workspace | None = None) -> tuple[NDArray[np.int64], NDArray[np.int64] | None]:
+    """The key ``(candidate << dense_bits | dense[feature, row]) << item_bits | item`` of every (item,
+    candidate of its node) pair (``item_bits = 0``: no item), and the item of every pair (None when the
+    pairs are slot-major: pair ``j * N + i`` is item ``i``)."""
     n, db = data.rows, data.dense_bits
     dense = data.dense.ravel()
     N = items.row.size
     m = int(ncand[0])
     if m and np.all(ncand == m):
-        # slot-major (m, N): long inner loops
-        by_slot = cand_feat.reshape(-1, m)
-        node_base = np.take(first << db, items.node, out=scratch(work, "node_base", N, np.int64), mode="clip")
-        code = scratch(work, "key", m * N, np.int64).reshape(m, N)
-        feat = scratch(work, "feat", N, np.int64)
-        ranks = scratch(work, "rank", N, dense.dtype)
-        for j in range(m):
-            np.take(by_slot[:, j] * n, items.node, out=feat, mode="clip")
-            feat += items.row
-            np.add(node_base, np.take(dense, feat, out=ranks, mode="clip"), out=code[j])
-            if j:
-                code[j] += j << db
-        return code.ravel(), None
+        # slot-major (m, N): a handful of whole-array calls for all slots
+        key = scratch(work, "key", m * N, np.int64).reshape(m, N)
+        np.take(cand_feat.reshape(-1, m).T * n, items.node, axis=1, out=key, mode="clip")
+        key += items.row
+        ranks = np.take(dense, key, out=scratch(work, "rank", m * N, dense.dtype).reshape(m, N), mode="clip")
+        np.left_shift(ranks, item_bits, out=key, dtype=np.int64)
+        base = np.take((first << db) << item_bits, items.node, out=scratch(work, "node_base", N, np.int64),
+                       mode="clip")
+        if item_bits:
+            base |= np.arange(N)
+        key += base
+        key += (np.arange(m)[:, None] << db) << item_bits
+        return key.ravel(), None
     reps = ncand[items.node]
     pair_item = np.repeat(np.arange(N), reps)
     offsets = np.arange(pair_item.size) - np.repeat(np.cumsum(reps) - reps, reps)
     pair_cand = first[items.node][pair_item] + offsets
-    return (pair_cand << db) | dense[cand_feat[pair_cand] * n + items.row[pair_item]], pair_item
+    code = (pair_cand << db) | dense[cand_feat[pair_cand] * n + items.row[pair_item]]
+    return (code << item_bits) | pair_item if item_bits else code, pair_item
 
 
 def _missing_totals(seg: _Segments, elem: NDArray[np.float64]) -> NDArray[np.float64] | None:

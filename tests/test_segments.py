@@ -1,0 +1,52 @@
+"""The level's sorted segments against a reference written here with ``np.lexsort``.
+
+Every (node, candidate feature) segment must list the node's items by increasing value of the feature
+(exact CART needs every node's cases in feature order; Breiman et al. 1984, chapter 4), ties in item order,
+and a cut may lie only between distinct values.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import forestlab as fl
+from forestlab._search import Items, _sorted_segments
+
+
+def level(n, p, nodes, seed, rounding=None):
+    rng = np.random.default_rng(seed)
+    X = rng.normal(size=(n, p))
+    if rounding is not None:
+        X = np.round(X, rounding)
+    forest = fl.Forest(trees=1, rng=0).fit(X, (X[:, 0] > 0).astype(int))
+    row = np.sort(rng.choice(n, size=int(0.63 * n), replace=False))
+    node = np.sort(rng.integers(0, nodes, row.size))  # nodes need not be contiguous in the items: shuffle rows
+    order = rng.permutation(row.size)
+    row, node = row, node[order]
+    items = Items(row, node, row.copy())
+    mask = np.zeros((nodes, p), dtype=bool)
+    for k in range(nodes):
+        mask[k, rng.choice(p, size=min(3, p), replace=False)] = True
+    return forest._data, items, mask, X
+
+
+@pytest.mark.parametrize("n, p, nodes, rounding", [(70_000, 4, 1, None), (70_000, 4, 37, 1), (300, 6, 9, 0)])
+def test_segments_are_each_node_sorted_by_value_ties_in_item_order(n, p, nodes, rounding):
+    data, items, mask, X = level(n, p, nodes, seed=n + nodes, rounding=rounding)
+    cand = np.flatnonzero(mask)
+    seg = _sorted_segments(data, items, np.zeros(nodes, dtype=np.int64), mask, cand)
+    expected, no_cut = [], []
+    for c in cand:  # reference: per candidate, lexsort by (value, item)
+        k, j = divmod(c, p)
+        mine = np.flatnonzero(items.node == k)
+        values = X[items.row[mine], j]
+        ordered = mine[np.lexsort((mine, values))]
+        expected.append(ordered)
+        no_cut.append(np.append(X[items.row[ordered[1:]], j] == X[items.row[ordered[:-1]], j], True))
+    np.testing.assert_array_equal(seg.item, np.concatenate(expected))
+    ref_no_cut = np.concatenate(no_cut)
+    ref_no_cut[-1] = True
+    inner = np.ones(seg.item.size, dtype=bool)
+    inner[seg.start[1:] - 1] = False  # the last element of each segment is decided by the search
+    np.testing.assert_array_equal(seg.no_cut[inner], ref_no_cut[inner])
