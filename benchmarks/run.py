@@ -9,8 +9,11 @@ What is measured
 ----------------
 * ``fit ... vs yardstick``: wall time of ``Forest(...).fit(X, y)`` (validation, presort and growth) against
   the single-threaded C program ``cforest`` (its ``presort_seconds + fit_seconds``: presort and growth, not
-  file reading or its OOB/test predictions), same data, trees, m and min_leaf, one process each, runs
-  alternating C / forestlab, median of ``--repeats`` runs each. The ratio is forestlab / C.
+  file reading or its OOB/test predictions), same data, trees, m and min_leaf, each run in a fresh process
+  of its own (forestlab's after a one-tree fit on 500 rows that loads NumPy's code paths, as the C program's
+  timer starts after its start-up), runs alternating C / forestlab, median of ``--repeats`` runs each. The
+  ratio is forestlab / C. (On a shared virtual machine one process can run a workload 30% slower than the
+  next, so every run gets a fresh process on both sides.)
 * ``per_tree``: nanoseconds per (row, tree) of ``forest.per_tree(X_test)`` on fully grown trees.
 * ``oob``: time of the first ``forest.oob`` access (every attribute read, the error curve included) as a
   fraction of the fit time; skipped with a note while the forest has no ``oob``.
@@ -20,8 +23,8 @@ What is measured
   the bytes of X. ``tracemalloc``'s peak of the same fit is shown beside it (it does not see the grower's
   scratch buffers, which are memory maps of their own).
 * ``storage``: bytes of all node arrays of a fitted forest per node.
-* ``growth``: fit time at the larger n over fit time at the smaller n (p = 10); n log n would be 12.5x for
-  10 000 -> 100 000.
+* ``growth``: fit time at the larger n over fit time at the smaller n (p = 10), fits in fresh processes as
+  above; n log n would be 12.5x for 10 000 -> 100 000.
 * ``workers``: fit time with ``workers=1`` over ``workers=2`` (speed-up), runs alternating, after one
   untimed ``workers=2`` fit that starts the fork server (a once-per-process cost, recorded in the JSON).
 
@@ -203,18 +206,36 @@ def bench_fit(row, yardstick, repeats, log):
     for r in range(repeats):
         if yardstick.binary is not None:
             theirs.append(yardstick.fit_seconds(data, f"{name}_n{n}_p{p}", m, trees, min_leaf))
-        seconds, forest = fit_forestlab(data, m, trees, min_leaf)
-        ours.append(seconds)
-        nodes = forest_bytes(forest)
-        del forest
+        child = run_child("--fit-child", f"{name},{n},{p},{m},{trees},{min_leaf}")
+        ours.append(child["seconds"])
+        nodes = (child["node_bytes"], child["nodes"])
         c_text = f", yardstick {theirs[-1]:.2f} s" if theirs else ""
-        log(f"  {label}: run {r + 1}: forestlab {seconds:.2f} s{c_text}")
+        log(f"  {label}: run {r + 1}: forestlab {ours[-1]:.2f} s{c_text}")
     out = {"label": label, "key": (name, n, p, m, trees, min_leaf), "forestlab_s": ours, "yardstick_s": theirs,
            "forestlab_median_s": statistics.median(ours), "bytes_per_node": nodes[0] / nodes[1]}
     if theirs:
         out["yardstick_median_s"] = statistics.median(theirs)
         out["ratio"] = out["forestlab_median_s"] / out["yardstick_median_s"]
     return out
+
+
+def fit_child(name, n, p, m, trees, min_leaf) -> dict:
+    """Run in a fresh process, as the yardstick runs: one timed fit (after a one-tree fit on a few rows that
+    loads NumPy's code paths), its seconds and node storage."""
+    data = make_data(name, n, p)
+    rows = min(n, 500)
+    fl.Forest(trees=1, sampler=m, min_leaf=min_leaf, task=data["task"], rng=0).fit(
+        data["X"][:rows], forestlab_target(data)[:rows])
+    seconds, forest = fit_forestlab(data, m, trees, min_leaf)
+    node_bytes, nodes = forest_bytes(forest)
+    return {"seconds": seconds, "node_bytes": node_bytes, "nodes": nodes}
+
+
+def run_child(flag: str, value: str) -> dict:
+    """This script in a fresh process with ``flag value``; its JSON answer."""
+    cmd = [sys.executable, str(Path(__file__).resolve()), flag, value]
+    env = dict(os.environ, PYTHONPATH=str(REPO))
+    return json.loads(subprocess.run(cmd, check=True, capture_output=True, text=True, env=env).stdout)
 
 
 def bench_per_tree(spec, repeats, log):
@@ -303,10 +324,7 @@ def _status_kib(field: str) -> int:
 def bench_memory(spec, log):
     if not Path("/proc/self/clear_refs").exists():
         return {"skipped": "needs /proc/self/clear_refs (Linux)"}
-    cmd = [sys.executable, str(Path(__file__).resolve()), "--memory-child",
-           f"{spec['n']},{spec['p']},{spec['trees']}"]
-    env = dict(os.environ, PYTHONPATH=str(REPO))
-    res = json.loads(subprocess.run(cmd, check=True, capture_output=True, text=True, env=env).stdout)
+    res = run_child("--memory-child", f"{spec['n']},{spec['p']},{spec['trees']}")
     res["x_multiple_rss"] = res["working_rss"] / res["x_bytes"]
     res["x_multiple_traced"] = res["working_traced"] / res["x_bytes"]
     log(f"  memory: {res['x_multiple_rss']:.2f} x X (rss), {res['x_multiple_traced']:.2f} x X (tracemalloc)")
@@ -322,8 +340,8 @@ def bench_growth(spec, repeats, fits, log):
         if same:
             times = same[0]["forestlab_s"]
         else:
-            data = make_data("twonorm", n, spec["p"])
-            times = [fit_forestlab(data, 3, spec["trees"], 1)[0] for _ in range(repeats)]
+            times = [run_child("--fit-child", f"twonorm,{n},{spec['p']},3,{spec['trees']},1")["seconds"]
+                     for _ in range(repeats)]
         out[key] = {"n": n, "seconds": times, "median_s": statistics.median(times)}
         log(f"  growth: n={n}: {out[key]['median_s']:.2f} s")
     out["factor"] = out["large"]["median_s"] / out["small"]["median_s"]
@@ -452,10 +470,15 @@ def main() -> None:
     ap.add_argument("--json", help="also write the results to this file")
     ap.add_argument("--results", help="also write the table and machine as Markdown to this file")
     ap.add_argument("--memory-child", help=argparse.SUPPRESS)
+    ap.add_argument("--fit-child", help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.memory_child:
         n, p, trees = map(int, args.memory_child.split(","))
         print(json.dumps(memory_child(n, p, trees)))
+        return
+    if args.fit_child:
+        name, *sizes = args.fit_child.split(",")
+        print(json.dumps(fit_child(name, *map(int, sizes))))
         return
     mode = "quick" if args.quick else "full"
     plan = PLANS[mode]

@@ -6,10 +6,10 @@ the gathers at the cuts, and keep their large temporaries in the batch's scratch
 *Two classes* (Gini or entropy, no case weights): every summed statistic is
 an integer count, so the two channels the search needs, the bootstrap weight ``W`` and the class-1 count
 ``c1``, travel packed in one int64 (``W + c1 * 2**32``): one gather, one integer ``cumsum`` (exact, so in any
-order), and ``c0 = W - c1``. Entropy is then computed from the same float values, with the same operations
-in the same order, as the generic path, so its splits and scores are bit-identical; Gini takes the shorter
-``W i = 2 c0 c1 / W``, equal to the generic value up to its rounding (so the chosen split can differ only
-between splits whose scores differ by about the tie tolerance).
+order), and ``c0 = W - c1``. Entropy is computed with the entropy splitter's own operations; Gini takes the
+shorter ``W i = 2 c0 c1 / W``, equal to the generic value up to its rounding. Scores are formed relative to
+the node (the decrease less the node's ``W i(t)``), so the chosen split can differ from the generic search's
+only between splits whose scores differ by about the tie tolerance.
 
 *Squared error*: the running sums of the case weight and of the weighted centred target only (no second
 moment), and the classic decrease ``S_l**2 / W_l + S_r**2 / W_r - S**2 / W``; equal to the generic score up
@@ -69,7 +69,7 @@ def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uin
 
 def _weighted_entropy(W, c1, out, tmp):
     """``W * i`` for the entropy of ``[W, W - c1, c1]``, with the entropy splitter's operations in its order
-    (so bit-identical to it); written to ``out``, ``tmp`` is scratch."""
+    (the same impurity values); written to ``out``, ``tmp`` is scratch."""
     p0 = np.divide(np.subtract(W, c1, out=out), W, out=out)
     p1 = np.divide(c1, W, out=tmp)
     s = np.multiply(p0, np.log(np.where(p0 > 0.0, p0, 1.0)), out=p0)

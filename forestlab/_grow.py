@@ -20,7 +20,7 @@ from ._presort import TrainingData
 from ._sampler import CandidateSampler, draw_masks
 from ._splitter import CartSplitter
 from ._search import Items, Splits, best_splits, checked_impurity
-from ._tree import TreeArrays, goes_right
+from ._tree import NODE_STORAGE, Tree, goes_right
 from ._workspace import Workspace
 
 __all__ = ["GrowthRules", "grow_batch"]
@@ -61,7 +61,7 @@ class _Batch:
 
 
 def grow_batch(data: TrainingData, rules: GrowthRules, seeds: list[np.random.SeedSequence],
-               work: Workspace | None = None) -> tuple[list[TreeArrays], NDArray[np.uint8]]:
+               work: Workspace | None = None) -> tuple[list[Tree], NDArray[np.uint8]]:
     """Grow one tree per seed; returns the trees and their in-bag counts, shape ``(len(seeds), n)``.
 
     Each tree draws its bootstrap sample first and then, level by level, its candidate features, only from
@@ -187,11 +187,13 @@ def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
     return Items(row, 2 * child_rank[node] + go_right, wi)
 
 
-def _collect(records: list[dict[str, NDArray]], trees: int) -> list[TreeArrays]:
-    """Reassemble the per-level records into one breadth-first node table per tree."""
+def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:
+    """Reassemble the per-level records into one breadth-first node table per tree: every column ordered by
+    tree and converted to its stored type once, each tree's arrays slices of it."""
     allrec = {k: np.concatenate([r[k] for r in records]) for k in records[0]}
     order = np.argsort(allrec["tree"], kind="stable")
-    sizes = np.bincount(allrec["tree"], minlength=trees)
-    cuts = np.cumsum(sizes)[:-1]
-    parts = {k: np.split(v[order], cuts) for k, v in allrec.items()}
-    return [TreeArrays.from_columns(parts, b) for b in range(trees)]
+    bounds = np.append(0, np.cumsum(np.bincount(allrec["tree"], minlength=trees)))
+    column = {"impurity_decrease": "decrease"}
+    stored = {name: allrec[column.get(name, name)][order].astype(dtype, copy=False)
+              for name, dtype in NODE_STORAGE.items()}
+    return [Tree(**{name: values[lo:hi] for name, values in stored.items()}) for lo, hi in zip(bounds[:-1], bounds[1:])]

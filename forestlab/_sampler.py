@@ -210,6 +210,10 @@ def draw_masks(sampler: CandidateSampler, gens: list[np.random.Generator], nodes
         m = candidate_count(sampler.m, features, "classification")
         if m >= features:
             return np.ones((int(np.sum(nodes)), features), dtype=bool)
-        keys = np.concatenate([gens[t].random((int(k), features)) for t, k in enumerate(nodes) if k])
+        live = np.flatnonzero(nodes)
+        ends = np.cumsum(nodes[live])
+        keys = np.empty((int(ends[-1]) if ends.size else 0, features))
+        for t, lo, hi in zip(live.tolist(), (ends - nodes[live]).tolist(), ends.tolist()):
+            gens[t].random(out=keys[lo:hi])  # the same numbers as ``random((hi - lo, features))``
         return keys <= np.partition(keys, m - 1, axis=1)[:, m - 1:m]
     return np.concatenate([checked_mask(sampler, gens[t], int(k), features) for t, k in enumerate(nodes) if k])

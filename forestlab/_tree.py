@@ -9,7 +9,7 @@ from numpy.typing import NDArray
 
 from ._categorical import in_left_set
 
-__all__ = ["NODE_STORAGE", "Tree", "TreeArrays", "goes_right", "leaf_index", "stacked_leaf_values"]
+__all__ = ["NODE_STORAGE", "Tree", "goes_right", "leaf_index", "stacked_leaf_values"]
 
 
 def _read_only(arr: NDArray) -> NDArray:
@@ -112,17 +112,9 @@ class Tree:
             frontier = children[left[children] >= 0]
         return _read_only(depth)
 
-    @classmethod
-    def from_columns(cls, parts: dict[str, list[NDArray]], b: int) -> Tree:
-        """Build tree ``b`` from the grower's per-tree columns."""
-        column = {"impurity_decrease": "decrease"}
-        return cls(**{name: parts[column.get(name, name)][b].astype(dtype) for name, dtype in NODE_STORAGE.items()})
-
     def __repr__(self) -> str:
         return f"Tree(nodes={self.nodes}, leaves={self.leaves}, depth={int(self.depth.max())})"
 
-
-TreeArrays = Tree
 
 
 def goes_right(X: NDArray[np.float64], row, node, feature, threshold, missing_left, category_left,
