@@ -24,7 +24,7 @@ What is measured
   scratch buffers, which are memory maps of their own).
 * ``storage``: bytes of all node arrays of a fitted forest per node.
 * ``growth``: fit time at the larger n over fit time at the smaller n (p = 10), fits in fresh processes as
-  above; n log n would be 12.5x for 10 000 -> 100 000.
+  above, the two sizes alternating; n log n would be 12.5x for 10 000 -> 100 000.
 * ``workers``: fit time with ``workers=1`` over ``workers=2`` (speed-up), runs alternating, after one
   untimed ``workers=2`` fit that starts the fork server (a once-per-process cost, recorded in the JSON).
 
@@ -331,19 +331,18 @@ def bench_memory(spec, log):
     return res
 
 
-def bench_growth(spec, repeats, fits, log):
-    """Fit time at two n; a fit row of the same size is reused rather than run again."""
-    out = {}
-    for key in ("small", "large"):
-        n = spec[key]
-        same = [f for f in fits if f["key"] == ("twonorm", n, spec["p"], 3, spec["trees"], 1)]
-        if same:
-            times = same[0]["forestlab_s"]
-        else:
-            times = [run_child("--fit-child", f"twonorm,{n},{spec['p']},3,{spec['trees']},1")["seconds"]
-                     for _ in range(repeats)]
-        out[key] = {"n": n, "seconds": times, "median_s": statistics.median(times)}
-        log(f"  growth: n={n}: {out[key]['median_s']:.2f} s")
+def bench_growth(spec, repeats, log):
+    """Fit time at two n, each fit in a fresh process, the two sizes alternating (so both see the same
+    machine: on a shared one, timings taken minutes apart drift more than the effect measured)."""
+    times = {"small": [], "large": []}
+    for r in range(repeats):
+        for key in ("small", "large"):
+            child = run_child("--fit-child", f"twonorm,{spec[key]},{spec['p']},3,{spec['trees']},1")
+            times[key].append(child["seconds"])
+        log(f"  growth: run {r + 1}: n={spec['small']} {times['small'][-1]:.2f} s, "
+            f"n={spec['large']} {times['large'][-1]:.2f} s")
+    out = {key: {"n": spec[key], "seconds": times[key], "median_s": statistics.median(times[key])}
+           for key in ("small", "large")}
     out["factor"] = out["large"]["median_s"] / out["small"]["median_s"]
     out["n_log_n"] = spec["large"] * math.log(spec["large"]) / (spec["small"] * math.log(spec["small"]))
     return out
@@ -498,7 +497,7 @@ def main() -> None:
         results["per_tree"] = bench_per_tree(plan["per_tree"], args.repeats, log)
         results["oob"] = bench_oob(plan["oob"], args.repeats, log)
         results["memory"] = bench_memory(plan["memory"], log)
-        results["growth"] = bench_growth(plan["growth"], args.repeats, results["fits"], log)
+        results["growth"] = bench_growth(plan["growth"], args.repeats, log)
         results["workers"] = bench_workers(plan["workers"], args.repeats, log)
     finally:
         yardstick.close()
