@@ -42,14 +42,41 @@ class FastPath:
 
     kind: str
     columns: tuple[NDArray, ...]
+    centre: float = 0.0  # squared error: the mean the statistics are centred on
 
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, out,
                     tie: float, work: Workspace | None):
         """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
-        columns = [np.take(c, items.wi) for c in self.columns]
+        columns = [np.take(c, items.wi) for c in self.columns[:2]]
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, *columns, parent, out, tie, work)
         return squared_error_best_splits(seg, min_leaf, lightest, *columns, parent, out, tie, work)
+
+    def summaries(self, data: TrainingData, items, K: int, sides: NDArray[np.float64]):
+        """Case weight, totals, leaf value and purity of every node of a level, with the weights, class-1
+        counts and item counts from its parents' ``sides`` (``Splits.sides`` of the split nodes, children in
+        order, shape (K, 3))."""
+        weight, summed, count = sides[:, 0], sides[:, 1], sides[:, 2]
+        if self.kind == "binary":
+            c0 = weight - summed
+            return weight, np.column_stack([weight, c0, summed]), (summed > c0).astype(np.float64), \
+                (c0 == 0) | (summed == 0)
+        # floating-point sums from the items, not from the parent's running sums (those carry the rounding of
+        # the segments before theirs); the weights are the parent's when they are integers (no case weights)
+        floats = self.columns[1:] if data.weights is None else self.columns
+        sums = [np.bincount(items.node, weights=np.take(c, items.wi), minlength=K) for c in floats]
+        if data.weights is not None:
+            weight = sums.pop(0)
+        summed, second = sums
+        value = summed / weight + self.centre
+        if data.distinct_targets:  # every item is a case of its own: one target value means one case
+            pure = count == 1
+        else:
+            y = data.target[items.row]
+            reference = np.empty(K, dtype=y.dtype)
+            reference[items.node] = y
+            pure = np.bincount(items.node, weights=(y != reference[items.node]), minlength=K) == 0
+        return weight, np.column_stack([weight, summed, second]), value, pure
 
 
 def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uint8]) -> FastPath | None:
@@ -63,7 +90,8 @@ def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uin
         return FastPath("binary", ((w + ((w * (data.target == 1)) << 32)).ravel(),))
     if type(splitter) is SquaredErrorSplitter:
         weight = counts.astype(np.int64) if data.weights is None else counts * data.stats[:, 0]
-        return FastPath("squared_error", (weight.ravel(), (counts * data.stats[:, 1]).ravel()))
+        return FastPath("squared_error", (weight.ravel(), (counts * data.stats[:, 1]).ravel(),
+                                          (counts * data.stats[:, 2]).ravel()), float(data.target.mean()))
     return None
 
 
@@ -132,6 +160,10 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
             np.negative(_weighted_gini(wl, cl, score), out=score)
             score -= _weighted_gini(wr, cr, left.view(np.float64))  # the left sums are spent: reuse
     nodes, pick, decrease = _pick(seg, parent, parent, tie, score)
+    cand = seg.candidate(pick)
+    right_at = right[pick]
+    (wr, cr), (wl, cl) = _halves(right_at), _halves(total[cand] - right_at)
+    record_sides(seg, out, nodes, pick, cand, (wl, cl), (wr, cr))
     return record_cuts(seg, out, nodes, pick, decrease, heavier_left[pick])
 
 
@@ -187,6 +219,8 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, weight, fir
     base = np.zeros_like(parent)  # the decrease is score - S**2 / W of the node (from its first candidate)
     base[seg.cand_node[seg.node_first]] = -total_s[seg.node_first] ** 2 / total_w[seg.node_first]
     nodes, pick, decrease = _pick(seg, parent, base, tie, score)
+    none = np.zeros(pick.size)
+    record_sides(seg, out, nodes, pick, seg.candidate(pick), (left_w[pick], none), (right_w[pick], none))
     return record_cuts(seg, out, nodes, pick, decrease, left_w[pick] >= right_w[pick])
 
 
@@ -233,6 +267,15 @@ def run_ids(sizes: NDArray[np.int64]) -> NDArray[np.int64]:
     ids = np.zeros(int(sizes.sum()), dtype=np.int64)
     ids[np.cumsum(sizes[:-1])] = 1
     return np.cumsum(ids, out=ids)
+
+
+def record_sides(seg, out, nodes, element, cand, left, right) -> None:
+    """Write the children of the cut after ``element`` (of candidate ``cand``) of each of ``nodes``: their
+    summed weight, class-1 count (two classes; 0 otherwise) and number of items, so the next level need not
+    sum them again (exact where they are integers)."""
+    items_left = element - seg.start[cand] + 1
+    out.sides[nodes, 0] = np.column_stack([left[0], left[1], items_left])
+    out.sides[nodes, 1] = np.column_stack([right[0], right[1], seg.size[cand] - items_left])
 
 
 def record_cuts(seg, out, nodes, element, decrease, heavier_left):

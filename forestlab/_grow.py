@@ -83,9 +83,10 @@ def grow_batch(data: TrainingData, rules: GrowthRules, seeds: list[np.random.See
     items = Items(row, slot, slot * n + row)
     node_tree = np.arange(len(gens))
     records: list[dict[str, NDArray]] = []
-    depth = 0
+    depth, sides = 0, None
     while node_tree.size:
-        level, items, node_tree = _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth)
+        level, items, node_tree, sides = _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth,
+                                                     sides)
         records.append(level)
         depth += 1
     return _collect(records, len(gens)), counts
@@ -99,10 +100,15 @@ def _tree_masks(sampler: CandidateSampler, gens: list[np.random.Generator],
     return draw_masks(sampler, gens, np.ones(len(gens), dtype=np.int64), features)
 
 
-def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth):
-    """Summarise, search and partition every open node of one level."""
+def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sides=None):
+    """Summarise, search and partition every open node of one level; ``sides`` are the nodes' sums as the
+    fast search of their parents found them (None: sum them here). Returns the level's record, the next
+    level's items and node trees, and the sums of its nodes (None where no fast search ran)."""
     K = node_tree.size
-    weight, totals, value, pure = _node_summaries(data, batch, items, K)
+    if sides is not None:
+        weight, totals, value, pure = batch.fast.summaries(data, items, K, sides)
+    else:
+        weight, totals, value, pure = _node_summaries(data, batch, items, K)
     closed = pure | (weight < 2 * rules.min_leaf)
     if rules.depth_limit is not None and depth >= rules.depth_limit:
         closed[:] = True
@@ -119,7 +125,9 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth):
         "missing_left": splits.missing_left & splits.found, "category_left": splits.category_left,
     }
     next_items = _partition(data, items, splits)
-    return record, next_items, np.repeat(node_tree[np.flatnonzero(splits.found)], 2)
+    inner = np.flatnonzero(splits.found)
+    sides = None if batch.fast is None else splits.sides[inner].reshape(-1, 3)
+    return record, next_items, np.repeat(node_tree[inner], 2), sides
 
 
 def _node_summaries(data: TrainingData, batch, items: Items, K: int):

@@ -50,15 +50,18 @@ class Splits:
     missing_left: NDArray[np.bool_]
     category_left: NDArray[np.uint64]  # (nodes, words) left-category bit sets of categorical splits
     cut_rank: NDArray[np.int64]  # dense rank of the largest value sent left (numeric splits)
+    sides: NDArray[np.float64]  # (nodes, 2, 3) the fast searches' children: [left, right] x [W, c1, items]
 
     @classmethod
     def none(cls, nodes: int, words: int) -> Splits:
         return cls(np.zeros(nodes, bool), np.full(nodes, -1), np.full(nodes, np.nan), np.zeros(nodes),
-                   np.zeros(nodes, bool), np.zeros((nodes, words), dtype=np.uint64), np.full(nodes, -1))
+                   np.zeros(nodes, bool), np.zeros((nodes, words), dtype=np.uint64), np.full(nodes, -1),
+                   np.zeros((nodes, 2, 3)))
 
     def update(self, where: NDArray, other: Splits, other_where: NDArray | slice = slice(None)) -> None:
         """Copy ``other``'s entries at ``other_where`` into this one's at ``where``."""
-        for name in ("found", "feature", "threshold", "decrease", "missing_left", "category_left", "cut_rank"):
+        for name in ("found", "feature", "threshold", "decrease", "missing_left", "category_left", "cut_rank",
+                     "sides"):
             getattr(self, name)[where] = getattr(other, name)[other_where]
 
 
