@@ -29,7 +29,7 @@ from ._running import running_sums
 from ._splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from ._workspace import Workspace, scratch
 
-__all__ = ["FastPath", "binary_best_splits", "binary_summaries", "fast_path", "squared_error_best_splits"]
+__all__ = ["FastPath", "binary_best_splits", "fast_path", "squared_error_best_splits"]
 
 @dataclass(frozen=True)
 class FastPath:
@@ -42,6 +42,7 @@ class FastPath:
 
     kind: str
     columns: tuple[NDArray, ...]
+    data: TrainingData
     centre: float = 0.0  # squared error: the mean the statistics are centred on
 
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, out,
@@ -51,6 +52,19 @@ class FastPath:
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, *columns, parent, out, tie, work)
         return squared_error_best_splits(seg, min_leaf, lightest, *columns, parent, out, tie, work)
+
+    def sides(self, items, K: int) -> NDArray[np.float64]:
+        """What :meth:`summaries` reads from the parents' cuts, summed over the items instead (K, 3): the
+        weight, the class-1 count (two classes; 0 otherwise) and the number of items of every node."""
+        out = np.zeros((K, 3))
+        if self.kind == "binary":
+            low, high = _halves(np.take(self.columns[0], items.wi))
+            out[:, 0] = np.bincount(items.node, weights=low, minlength=K)
+            out[:, 1] = np.bincount(items.node, weights=high, minlength=K)
+        elif self.data.weights is None:  # (with case weights the summaries sum the weights themselves)
+            out[:, 0] = np.bincount(items.node, weights=np.take(self.columns[0], items.wi), minlength=K)
+        out[:, 2] = np.bincount(items.node, minlength=K)
+        return out
 
     def summaries(self, data: TrainingData, items, K: int, sides: NDArray[np.float64]):
         """Case weight, totals, leaf value and purity of every node of a level, with the weights, class-1
@@ -87,11 +101,11 @@ def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uin
     if (type(splitter) in (GiniSplitter, EntropySplitter) and data.classes == 2 and data.weights is None
             and data.stats.shape[1] == 3):
         w = counts.astype(np.int64)
-        return FastPath("binary", ((w + ((w * (data.target == 1)) << 32)).ravel(),))
+        return FastPath("binary", ((w + ((w * (data.target == 1)) << 32)).ravel(),), data)
     if type(splitter) is SquaredErrorSplitter:
         weight = counts.astype(np.int64) if data.weights is None else counts * data.stats[:, 0]
         return FastPath("squared_error", (weight.ravel(), (counts * data.stats[:, 1]).ravel(),
-                                          (counts * data.stats[:, 2]).ravel()), float(data.target.mean()))
+                                          (counts * data.stats[:, 2]).ravel()), data, float(data.target.mean()))
     return None
 
 
@@ -123,17 +137,6 @@ def _unpack(v, work: Workspace | None, names: tuple[str, str]):
     c = scratch(work, names[1], v.size, np.float64)
     np.copyto(c, high, casting="unsafe")
     return w, c
-
-
-def binary_summaries(packed, node, K: int):
-    """Case weight, totals ``[W, c0, c1]``, leaf class and purity of every node, from the packed counts of the
-    level's items (``node`` their nodes): integers all, so equal to the generic summaries."""
-    low, high = _halves(packed)
-    weight = np.bincount(node, weights=low, minlength=K)
-    c1 = np.bincount(node, weights=high, minlength=K)
-    c0 = weight - c1
-    value = (c1 > c0).astype(np.float64)  # the heavier class, the lower one on ties
-    return weight, np.column_stack([weight, c0, c1]), value, (c0 == 0) | (c1 == 0)
 
 
 def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, parent, out, tie: float,

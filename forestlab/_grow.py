@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import FastPath, binary_summaries, fast_path
+from ._fast_search import FastPath, fast_path
 from ._bootstrap import draw_counts
 from ._presort import TrainingData
 from ._sampler import CandidateSampler, draw_masks
@@ -105,7 +105,8 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
     fast search of their parents found them (None: sum them here). Returns the level's record, the next
     level's items and node trees, and the sums of its nodes (None where no fast search ran)."""
     K = node_tree.size
-    if sides is not None:
+    if batch.fast is not None:  # the same sums whether the parents' cuts give them or the items do
+        sides = batch.fast.sides(items, K) if sides is None else sides
         weight, totals, value, pure = batch.fast.summaries(data, items, K, sides)
     else:
         weight, totals, value, pure = _node_summaries(data, batch, items, K)
@@ -132,8 +133,6 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
 
 def _node_summaries(data: TrainingData, batch, items: Items, K: int):
     """Per node: case weight, summed statistics, leaf value and whether all targets are equal."""
-    if batch.fast is not None and batch.fast.kind == "binary":
-        return binary_summaries(np.take(batch.fast.columns[0], items.wi), items.node, K)
     item_stats = np.take(batch.stats, items.wi, axis=1)
     totals = np.stack([np.bincount(items.node, weights=channel, minlength=K) for channel in item_stats], axis=1)
     weight = totals[:, 0]
