@@ -80,7 +80,7 @@ def grow_batch(data: TrainingData, rules: GrowthRules, seeds: list[np.random.See
                          "weight 0; give more cases a positive weight")
     slot = np.repeat(np.arange(len(gens)), [r.size for r in rows])
     row = np.concatenate(rows)
-    items = Items(row, slot, slot * n + row)
+    items = Items(row, slot, row if len(gens) == 1 else slot * n + row)
     node_tree = np.arange(len(gens))
     records: list[dict[str, NDArray]] = []
     depth, sides = 0, None
@@ -156,8 +156,8 @@ def _node_summaries(data: TrainingData, batch, items: Items, K: int):
 def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, closed, open_nodes):
     """Best split of every open node; per-node samplers fall back to the other features if none splits."""
     if closed.any():
-        keep = np.flatnonzero(~closed[items.node])
-        sub_items = Items(items.row[keep], (np.cumsum(~closed) - 1)[items.node[keep]], items.wi[keep])
+        sub_items = items.take(np.flatnonzero(~closed[items.node]))
+        sub_items.node = (np.cumsum(~closed) - 1)[sub_items.node]
     else:
         sub_items = items
     sub_tree = node_tree[open_nodes]
@@ -183,15 +183,15 @@ def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.
 
 def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
     """Send the items of split nodes to their children (order within each tree kept)."""
-    keep = np.flatnonzero(splits.found[items.node])
-    row, node, wi = items.row[keep], items.node[keep], items.wi[keep]
+    kept = items.take(np.flatnonzero(splits.found[items.node]))
+    row, node = kept.row, kept.node
     if data.missing or data.category_words:
         go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
                               splits.category_left, data.missing)
     else:  # numeric without gaps: above the cut's dense rank (the nodes' values lie on either side of it)
         go_right = data.dense.ravel()[splits.feature[node] * data.rows + row] > splits.cut_rank[node]
     child_rank = np.cumsum(splits.found) - 1
-    return Items(row, 2 * child_rank[node] + go_right, wi)
+    return Items(row, 2 * child_rank[node] + go_right, kept.wi)
 
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:

@@ -44,7 +44,7 @@ def prefix_sum(x: NDArray[np.float64], out: NDArray[np.float64], width: int = 8)
     fast, and a fixed order of additions that depends only on ``x``.
     """
     blocks = x.size // width
-    if blocks < 2:
+    if x.size < _SHORT:
         return np.cumsum(x, out=out)
     body = out[:blocks * width].reshape(blocks, width)
     if out is not x:
@@ -58,3 +58,6 @@ def prefix_sum(x: NDArray[np.float64], out: NDArray[np.float64], width: int = 8)
         np.cumsum(x[tail], out=out[tail])
         out[tail] += carry[-1]
     return out
+
+
+_SHORT = 4096  # below this many elements a plain cumsum is quicker (fewer calls)

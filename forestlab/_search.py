@@ -29,14 +29,16 @@ TIE_TOLERANCE = 1e-12
 @dataclass
 class Items:
     """The open (tree, row) pairs of one level; ``node`` indexes the level's open nodes, ``wi`` is
-    ``slot * n + row``, the pair's column in the batch's weighted statistics."""
+    ``slot * n + row``, the pair's column in the batch's weighted statistics (the same array as ``row`` in a
+    batch of one tree)."""
 
     row: NDArray[np.int64]
     node: NDArray[np.int64]
     wi: NDArray[np.int64]
 
     def take(self, keep: NDArray[np.intp]) -> Items:
-        return Items(self.row[keep], self.node[keep], self.wi[keep])
+        row = self.row[keep]
+        return Items(row, self.node[keep], row if self.wi is self.row else self.wi[keep])
 
 
 @dataclass

@@ -8,6 +8,7 @@ trees in the batch (forestlab's rule: a tree's arithmetic never depends on its b
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
@@ -68,3 +69,13 @@ def test_prefix_sum_equals_cumsum(values, in_place):
         bound = 2 * x.size * np.finfo(float).eps * np.abs(x).sum()  # both within (n - 1) eps sum|x| of exact
     got = prefix_sum(x.copy() if not in_place else x, out)
     np.testing.assert_allclose(got, expected, rtol=0, atol=bound + 1e-300)
+
+
+@pytest.mark.parametrize("size", [4095, 4096, 4097, 5003, 8191, 65_536])
+def test_blocked_prefix_sum_of_long_arrays(size):
+    # long arrays take the blocked path (short ones a plain cumsum); the same error bound holds
+    x = np.random.default_rng(size).normal(size=size) * 100
+    bound = 2 * x.size * np.finfo(float).eps * np.abs(x).sum()
+    for out in (np.empty_like(x), None):
+        got = prefix_sum(x.copy(), np.empty_like(x)) if out is not None else prefix_sum(y := x.copy(), y)
+        np.testing.assert_allclose(got, np.cumsum(x), rtol=0, atol=bound)
