@@ -304,17 +304,17 @@ class TestFailures:
         path = tmp_path / "fit.py"
         path.write_text(script)
         env = dict(os.environ, PYTHONPATH=str(Path(fl.__file__).parents[1]))
-        proc = subprocess.Popen([sys.executable, str(path)], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
-                                text=True, env=env, start_new_session=True)
-        try:
-            assert proc.stdout.readline().strip() == "done 0"
-            assert proc.stdout.readline().startswith("done ")  # workers are running
-            os.killpg(proc.pid, signal.SIGINT)
-            out, err = proc.communicate(timeout=60)
-        finally:
-            if proc.poll() is None:
-                os.killpg(proc.pid, signal.SIGKILL)
-                proc.wait()
+        with subprocess.Popen([sys.executable, str(path)], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                              text=True, env=env, start_new_session=True) as proc:  # closes the pipes
+            try:
+                assert proc.stdout.readline().strip() == "done 0"
+                assert proc.stdout.readline().startswith("done ")  # workers are running
+                os.killpg(proc.pid, signal.SIGINT)
+                out, err = proc.communicate(timeout=60)
+            finally:
+                if proc.poll() is None:
+                    os.killpg(proc.pid, signal.SIGKILL)
+                    proc.wait()
         assert proc.returncode != 0 and "KeyboardInterrupt" in err and "finished" not in out
         assert _leftover_segments(proc.pid) == []
         assert _wait_gone(_session_members(proc.pid)) == []
