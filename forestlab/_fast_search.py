@@ -31,13 +31,14 @@ from ._workspace import Workspace, scratch
 
 __all__ = ["FastPath", "binary_best_splits", "fast_path", "squared_error_best_splits"]
 
+
 @dataclass(frozen=True)
 class FastPath:
     """A batch's statistics packed for one of the specialised searches, one entry per (slot, row).
 
     ``kind`` is ``"binary"`` (``columns = (W + c1 * 2**32,)``, int64) or ``"squared_error"`` (``columns =
-    (W, S1)``: the case weight, int64 bootstrap counts when there are no case weights, and the weighted
-    centred target).
+    (W, S1, S2)``: the case weight, int64 bootstrap counts when there are no case weights, the weighted
+    centred target, and its square; the search reads the first two, the node sums all three).
     """
 
     kind: str
@@ -150,7 +151,8 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
     _exclude_light(seg.no_cut, wl, wr, min_leaf, lightest)
-    heavier_left = np.greater_equal(wl, wr, out=scratch(work, "heavier_left", L, np.bool_))  # the sums go
+    # read now: the left sums' buffer is reused below
+    heavier_left = np.greater_equal(wl, wr, out=scratch(work, "heavier_left", L, np.bool_))
     with np.errstate(divide="ignore", invalid="ignore"):
         score = scratch(work, "score", L, np.float64)  # minus the children's W i: the decrease less W_t i(t)
         if type(splitter) is EntropySplitter:
