@@ -4,9 +4,11 @@ A categorical feature splits on a *subset* of its categories. Within each node t
 ordered by the class-1 share (two classes) or the mean response (regression), and the split points of that
 order are searched like those of a numeric feature; for these two cases the best of the ``2**(k-1) - 1``
 subsets is always among them (Breiman, Friedman, Olshen & Stone 1984, *Classification and Regression Trees*,
-section 9.4; Fisher 1958, "On grouping for maximum homogeneity"). With more than two classes the categories
-are ordered by their projection on the first principal component of the (weight-weighted) class-share
-matrix, the heuristic of Coppersmith, Hong & Hosking (1999), "Partitioning nominal attributes in decision
+section 9.4; Fisher 1958, "On grouping for maximum homogeneity"). That holds when ``min_leaf`` excludes no
+subset: where it does, the best allowed split point of the order is taken, and the best allowed subset need
+not be one of them (a rare category may be worth pairing with a far one). With more than two classes the
+categories are ordered by their projection on the first principal component of the (weight-weighted)
+class-share matrix, the heuristic of Coppersmith, Hong & Hosking (1999), "Partitioning nominal attributes in decision
 trees", Data Mining and Knowledge Discovery 3, 197-217; it is not always optimal.
 
 A category that a node never saw in training (absent from its cases, or unseen in the whole training set)

@@ -88,9 +88,11 @@ class Forest:
     categorical : sequence of int or str, optional
         Features (positions, or column names) whose values are category labels rather than quantities.
         A split on one sends a subset of its categories left, found exactly for two classes and for
-        regression (Breiman et al. 1984, section 9.4) and by the principal-component ordering of Coppersmith,
-        Hong & Hosking (1999) for more classes. Any real values serve as labels (NaN is missing); a category
-        not seen where a split was learned goes where that split sends missing values.
+        regression (Breiman et al. 1984, section 9.4; where ``min_leaf`` rules out some subsets, the best
+        allowed split of the categories' order, which can fall short of the best allowed subset) and by the
+        principal-component ordering of Coppersmith, Hong & Hosking (1999) for more classes. Any real
+        values serve as labels (NaN is missing); a category not seen where a split was learned goes where
+        that split sends missing values.
     balance : {"classes"} or None
         ``"classes"`` draws each tree's sample stratified, the same number of cases from every class (the
         balanced random forest of Chen, Liaw & Breiman 2004, "Using random forest to learn imbalanced data").
