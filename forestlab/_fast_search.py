@@ -292,7 +292,7 @@ def record_cuts(seg, out, nodes, element, decrease, heavier_left):
     feature = seg.cand_feat[seg.candidate(element)]
     out.found[nodes] = True
     out.feature[nodes] = feature
-    out.cut_rank[nodes] = seg.dense[feature, seg.rows_of(element)]
+    out.cut_rank[nodes] = seg.data.dense[feature, seg.rows_of(element)]
     out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
     out.decrease[nodes] = decrease
     out.missing_left[nodes] = heavier_left

@@ -95,10 +95,8 @@ class _Segments:
     item: NDArray[np.int64]        # (L,) the level's item of each element
     code: NDArray[np.int64]        # (L,) candidate and dense rank of each element
     no_cut: NDArray[np.bool_]      # (L,) equal value next (scratch: a search may add its own exclusions)
-    dense_bits: int
     items: Items
-    X: NDArray[np.float64]
-    dense: NDArray[np.int32]
+    data: TrainingData
     x: NDArray[np.float64] | None = None   # (L,) feature value (category position for categorical), NaN last
     wi: NDArray[np.int64] | None = None    # (L,) index of each element's (tree, row) in the weighted statistics
     row: NDArray[np.int64] | None = None   # (L,) training row of each element
@@ -108,7 +106,7 @@ class _Segments:
     def cand_of(self) -> NDArray[np.int64]:
         """(L,) candidate of each element (formed in place of ``code``)."""
         if self._cand_of is None:
-            self._cand_of = np.right_shift(self.code, self.dense_bits, out=self.code)
+            self._cand_of = np.right_shift(self.code, self.data.dense_bits, out=self.code)
         return self._cand_of
 
     def candidate(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
@@ -119,7 +117,7 @@ class _Segments:
         """Feature values of the given elements."""
         if self.x is not None:
             return self.x[element]
-        return self.X[self.rows_of(element), self.cand_feat[self.candidate(element)]]
+        return self.data.X[self.rows_of(element), self.cand_feat[self.candidate(element)]]
 
     def rows_of(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
         """Training rows of the given elements."""
@@ -129,7 +127,7 @@ class _Segments:
         """Fill ``row``, ``wi`` and ``x`` (NaN for missing values) for the generic search."""
         self.row = self.items.row[self.item]
         self.wi = self.items.wi[self.item]
-        self.x = self.X.ravel()[self.row * self.X.shape[1] + self.cand_feat[self.cand_of]]
+        self.x = self.data.X.ravel()[self.row * self.data.features + self.cand_feat[self.cand_of]]
 
 
 def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, batch, items: Items, node_tree, mask,
@@ -267,7 +265,7 @@ def _sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wo
     size = np.bincount(items.node, minlength=K)[cand_node]
     start = np.cumsum(size) - size
     return _Segments(cand_node, cand_feat, node_tree[cand_node], start, size, first[ncand > 0], item, code,
-                     no_cut, data.dense_bits, items, data.X, data.dense)
+                     no_cut, items, data)
 
 
 def _pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_bits: int,
