@@ -84,14 +84,8 @@ class FastPath:
             weight = sums.pop(0)
         summed, second = sums
         value = summed / weight + self.centre
-        if data.distinct_targets:  # every item is a case of its own: one target value means one case
-            pure = count == 1
-        else:
-            y = data.target[items.row]
-            reference = np.empty(K, dtype=y.dtype)
-            reference[items.node] = y
-            pure = np.bincount(items.node, weights=(y != reference[items.node]), minlength=K) == 0
-        return weight, np.column_stack([weight, summed, second]), value, pure
+        return weight, np.column_stack([weight, summed, second]), value, data.equal_targets(items.row, items.node,
+                                                                                             K, count)
 
 
 def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uint8]) -> FastPath | None:

@@ -145,12 +145,7 @@ def _node_summaries(data: TrainingData, batch, items: Items, K: int):
         value = np.argmax(by_class, axis=1).astype(np.float64)
     else:
         value = np.bincount(items.node, weights=item_stats[0] * y, minlength=K) / weight
-    if data.distinct_targets:  # every item is a case of its own: one target value means one case
-        return weight, totals, value, np.bincount(items.node, minlength=K) == 1
-    reference = np.empty(K, dtype=y.dtype)
-    reference[items.node] = y
-    pure = np.bincount(items.node, weights=(y != reference[items.node]), minlength=K) == 0
-    return weight, totals, value, pure
+    return weight, totals, value, data.equal_targets(items.row, items.node, K)
 
 
 def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, closed, open_nodes):

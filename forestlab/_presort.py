@@ -64,6 +64,17 @@ class TrainingData:
         """uint64 words of a left-category bit set (0 without categorical features)."""
         return 0 if self.categories is None else words_for(int(self.categories.max()))
 
+    def equal_targets(self, row: NDArray[np.intp], node: NDArray[np.intp], K: int,
+                      count: NDArray | None = None) -> NDArray[np.bool_]:
+        """Whether all cases of each of ``K`` nodes share one target value (``row``, ``node``: the nodes'
+        cases). Regression targets that never repeat settle it from ``count``, the cases per node, if given."""
+        if self.distinct_targets:  # every case a target of its own: one value means one case
+            return (np.bincount(node, minlength=K) if count is None else count) == 1
+        y = self.target[row]
+        reference = np.empty(K, dtype=y.dtype)
+        reference[node] = y
+        return np.bincount(node, weights=(y != reference[node]), minlength=K) == 0
+
     @property
     def rows(self) -> int:
         return self.X.shape[0]
