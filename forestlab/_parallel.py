@@ -317,21 +317,29 @@ def _cancel(futures: dict[Future, int]) -> None:
 
 
 def _stop_pool(pool: ProcessPoolExecutor) -> None:
-    """Cancel what has not started, terminate the workers and wait until they are gone.
+    """Cancel what has not started, terminate the workers and wait until they and the manager thread are gone.
 
-    ``shutdown`` forgets the pool's processes and manager thread, so both are taken beforehand (private
-    attributes, stable since Python 3.8; there is no public way before ``terminate_workers`` in 3.14).
+    ``shutdown`` forgets the pool's processes, manager thread and result queue, so they are taken beforehand
+    (private attributes, stable since Python 3.9; there is no public way before ``terminate_workers`` in 3.14).
     """
     processes = list((getattr(pool, "_processes", None) or {}).values())
     manager = getattr(pool, "_executor_manager_thread", None)
+    results = getattr(pool, "_result_queue", None)
     pool.shutdown(wait=False, cancel_futures=True)
     for process in processes:
         if process.is_alive():
             process.terminate()
-    if manager is not None:
-        manager.join()
     for process in processes:
         process.join()
+    # A worker stopped while it was sending a result leaves half a message in the result pipe, and the
+    # manager thread would wait for the rest forever. With every worker gone, closing this process's copy of
+    # the pipe's write end (the last one) turns that wait into end-of-file, which the manager treats as a
+    # broken pool: it fails what is left and exits.
+    writer = getattr(results, "_writer", None)
+    if writer is not None:
+        writer.close()
+    if manager is not None:
+        manager.join()
 
 
 def _span(ids: Sequence[int]) -> str:

@@ -320,6 +320,37 @@ class TestFailures:
         assert _wait_gone(_session_members(proc.pid)) == []
 
 
+    def test_stop_with_half_a_result_in_the_pipe(self, tmp_path):
+        """A worker stopped while sending its result leaves half a message in the pool's result pipe (seen as
+        a hang of the Ctrl-C test, about one run in five). ``_stop_pool`` must still return. Run in a child
+        process: a hung manager thread would otherwise keep this test process from exiting."""
+        script = textwrap.dedent("""
+            import os, struct, time
+            from concurrent.futures import ProcessPoolExecutor
+            from forestlab import _parallel
+            if __name__ == "__main__":
+                pool = ProcessPoolExecutor(2, mp_context=_parallel._worker_context())
+                assert pool.submit(int, "7").result() == 7  # workers and manager thread are up
+                writer = pool._result_queue._writer
+                os.write(writer.fileno(), struct.pack("!i", 1000) + b"x" * 10)  # header of 1000 bytes, 10 sent
+                time.sleep(0.2)  # the manager thread is now waiting for the other 990
+                _parallel._stop_pool(pool)
+                print("stopped", flush=True)
+        """)
+        path = tmp_path / "half.py"
+        path.write_text(script)
+        env = dict(os.environ, PYTHONPATH=str(Path(fl.__file__).parents[1]))
+        with subprocess.Popen([sys.executable, str(path)], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                              text=True, env=env, start_new_session=True) as proc:
+            try:
+                out, err = proc.communicate(timeout=60)
+            finally:
+                if proc.poll() is None:
+                    os.killpg(proc.pid, signal.SIGKILL)
+                    proc.wait()
+        assert proc.returncode == 0 and out == "stopped\n", err
+
+
 class _Recorder(fl.CandidateSampler):
     """All features; records the pid of every process that draws."""
 
