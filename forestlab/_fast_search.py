@@ -228,44 +228,24 @@ def _pick(seg, parent, base, tie, score):
     best-scoring cut of every node: returns the nodes that have one, the cut elements and their decreases.
 
     A cut's decrease is ``base[node] + score``; ties are judged on the decrease, at the scale of the larger
-    of the best decrease and the parent's ``W i(t)``. Segments are never empty (every candidate belongs to
-    a node that has items).
+    of the best decrease and the parent's ``W i(t)``. A node's elements are contiguous (its candidates in
+    order, each sorted by value), so its first cut reaching the bar is the first hit at or after its first
+    element. Segments are never empty (every candidate belongs to a node that has items).
     """
     invalid = seg.no_cut
     invalid[seg.start[1:] - 1] = True
     np.putmask(score, invalid, -np.inf)
-    node_first, nodes = seg.node_first, seg.cand_node[seg.node_first]
-    top = np.maximum.reduceat(score, seg.start)
-    best = np.maximum.reduceat(top, node_first)
-    with np.errstate(invalid="ignore"):
-        bar = best - tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes]))
+    nodes = seg.cand_node[seg.node_first]
+    node_start = seg.start[seg.node_first]
+    best = np.maximum.reduceat(score, node_start)
     found = best > -np.inf
-    pick = _first_reaching(seg.start, seg.size, score, top, bar, node_first, found)
+    with np.errstate(invalid="ignore"):
+        bar = np.where(found, best - tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes])), np.inf)
+    reached = np.greater_equal(score, np.repeat(bar, np.diff(np.append(node_start, score.size))), out=invalid)
+    hit = np.flatnonzero(reached)
+    pick = hit[np.searchsorted(hit, node_start[found])]
     nodes = nodes[found]
     return nodes, pick, base[nodes] + score[pick]
-
-
-def _first_reaching(start, size, score, top, bar, node_first, found):
-    """Per found node, the first element of its segments whose score reaches the node's ``bar``: the first
-    candidate whose segment maximum reaches it, then the first element of that segment alone."""
-    with np.errstate(invalid="ignore"):
-        reach = np.flatnonzero(top >= bar[run_ids(np.diff(np.append(node_first, top.size)))])
-    cand = reach[np.searchsorted(reach, node_first[found])]
-    bar = bar[found]
-    width = size[cand]
-    offset = np.cumsum(width) - width
-    run = run_ids(width)
-    elem = np.arange(run.size) + (start[cand] - offset)[run]
-    hit = np.flatnonzero(score[elem] >= bar[run])
-    return elem[hit[np.searchsorted(hit, offset)]]
-
-
-def run_ids(sizes: NDArray[np.int64]) -> NDArray[np.int64]:
-    """``np.repeat(np.arange(sizes.size), sizes)`` for positive sizes, by one ``cumsum`` (``np.repeat`` is
-    slow for many short runs)."""
-    ids = np.zeros(int(sizes.sum()), dtype=np.int64)
-    ids[np.cumsum(sizes[:-1])] = 1
-    return np.cumsum(ids, out=ids)
 
 
 def record_sides(seg, out, nodes, element, cand, left, right) -> None:
