@@ -13,7 +13,9 @@ only between splits whose scores differ by about the tie tolerance.
 
 *Squared error*: the running sums of the case weight and of the weighted centred target only (no second
 moment), and the classic decrease ``S_l**2 / W_l + S_r**2 / W_r - S**2 / W``; equal to the generic score up
-to rounding.
+to rounding. The two channels travel as one complex number ``W + 1j * S``: one gather and one ``cumsum``
+serve both (a complex addition adds the parts separately, so the sums are those of each channel alone, and
+integer ``W`` stays exact as a float).
 """
 
 from __future__ import annotations
@@ -37,8 +39,9 @@ class FastPath:
     """A batch's statistics packed for one of the specialised searches, one entry per (slot, row).
 
     ``kind`` is ``"binary"`` (``columns = (W + c1 * 2**32,)``, int64) or ``"squared_error"`` (``columns =
-    (W, S1, S2)``: the case weight, int64 bootstrap counts when there are no case weights, the weighted
-    centred target, and its square; the search reads the first two, the node sums all three).
+    (W + 1j * S1, S2)``: the case weight (the bootstrap count when there are no case weights) and the
+    weighted centred target as one complex128, and the weighted square of the centred target; the search
+    reads the first, the node sums both).
     """
 
     kind: str
@@ -49,10 +52,10 @@ class FastPath:
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, out,
                     tie: float, work: Workspace | None):
         """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
-        columns = [np.take(c, items.wi) for c in self.columns[:2]]
+        column = np.take(self.columns[0], items.wi)
         if self.kind == "binary":
-            return binary_best_splits(seg, splitter, min_leaf, lightest, *columns, parent, out, tie, work)
-        return squared_error_best_splits(seg, min_leaf, lightest, *columns, parent, out, tie, work)
+            return binary_best_splits(seg, splitter, min_leaf, lightest, column, parent, out, tie, work)
+        return squared_error_best_splits(seg, min_leaf, lightest, column, parent, out, tie, work)
 
     def sides(self, items, K: int) -> NDArray[np.float64]:
         """What :meth:`summaries` reads from the parents' cuts, summed over the items instead (K, 3): the
@@ -63,7 +66,7 @@ class FastPath:
             out[:, 0] = np.bincount(items.node, weights=low, minlength=K)
             out[:, 1] = np.bincount(items.node, weights=high, minlength=K)
         elif self.data.weights is None:  # (with case weights the summaries sum the weights themselves)
-            out[:, 0] = np.bincount(items.node, weights=np.take(self.columns[0], items.wi), minlength=K)
+            out[:, 0] = np.bincount(items.node, weights=np.take(self.columns[0].real, items.wi), minlength=K)
         out[:, 2] = np.bincount(items.node, minlength=K)
         return out
 
@@ -78,7 +81,8 @@ class FastPath:
                 (c0 == 0) | (summed == 0)
         # floating-point sums from the items, not from the parent's running sums (those carry the rounding of
         # the segments before theirs); the weights are the parent's when they are integers (no case weights)
-        floats = self.columns[1:] if data.weights is None else self.columns
+        ws, second = self.columns
+        floats = (ws.imag, second) if data.weights is None else (ws.real, ws.imag, second)
         sums = [np.bincount(items.node, weights=np.take(c, items.wi), minlength=K) for c in floats]
         if data.weights is not None:
             weight = sums.pop(0)
@@ -98,9 +102,11 @@ def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uin
         w = counts.astype(np.int64)
         return FastPath("binary", ((w + ((w * (data.target == 1)) << 32)).ravel(),), data)
     if type(splitter) is SquaredErrorSplitter:
-        weight = counts.astype(np.int64) if data.weights is None else counts * data.stats[:, 0]
-        return FastPath("squared_error", (weight.ravel(), (counts * data.stats[:, 1]).ravel(),
-                                          (counts * data.stats[:, 2]).ravel()), data, float(data.target.mean()))
+        ws = np.empty(counts.shape, dtype=np.complex128)
+        ws.real = counts if data.weights is None else counts * data.stats[:, 0]
+        ws.imag = counts * data.stats[:, 1]
+        return FastPath("squared_error", (ws.ravel(), (counts * data.stats[:, 2]).ravel()), data,
+                        float(data.target.mean()))
     return None
 
 
@@ -190,33 +196,31 @@ def _weighted_gini(W, c1, out):
     return g
 
 
-def squared_error_best_splits(seg, min_leaf: float, lightest: float, weight, first, parent, out, tie: float,
+def squared_error_best_splits(seg, min_leaf: float, lightest: float, packed, parent, out, tie: float,
                               work: Workspace | None):
     """As :func:`binary_best_splits` for the squared-error splitter, from the case weight ``W`` and the
-    weighted centred target ``S`` of the level's items.
+    weighted centred target ``S`` of the level's items, packed as ``W + 1j * S``.
 
     The decrease of the within-node sum of squares of a cut is ``S_l**2 / W_l + S_r**2 / W_r - S**2 / W``
     (Breiman et al. 1984, section 8.3), the squared-error splitter's score up to rounding, so only the
     running sums of ``W`` (integers without case weights: exact) and ``S`` are needed.
     """
     L = seg.item.size
-    w = np.take(weight, seg.item, out=scratch(work, "w", L, weight.dtype), mode="clip")
-    s = np.take(first, seg.item, out=scratch(work, "s", L, np.float64), mode="clip")
-    left_w, total_w = running_sums(w, seg.start, seg.cand_tree, out=w)
-    left_s, total_s = running_sums(s, seg.start, seg.cand_tree, out=s)
-    right_w = np.take(total_w, seg.cand_of, out=scratch(work, "right_w", L, weight.dtype), mode="clip")
-    right_w -= left_w
+    elem = np.take(packed, seg.item, out=scratch(work, "elem_ws", L, np.complex128), mode="clip")
+    left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
+    right = np.take(total, seg.cand_of, out=scratch(work, "right_ws", L, np.complex128), mode="clip")
+    right -= left
+    left_w, left_s, right_w, right_s = left.real, left.imag, right.real, right.imag
     _exclude_light(seg.no_cut, left_w, right_w, min_leaf, lightest)
     with np.errstate(divide="ignore", invalid="ignore"):
         score = np.multiply(left_s, left_s, out=scratch(work, "score", L, np.float64))
         score /= left_w
-        tmp = np.take(total_s, seg.cand_of, out=scratch(work, "tmp1", L, np.float64), mode="clip")
-        tmp -= left_s
-        tmp *= tmp
+        tmp = np.multiply(right_s, right_s, out=scratch(work, "tmp1", L, np.float64))
         tmp /= right_w
         score += tmp
-    base = np.zeros_like(parent)  # the decrease is score - S**2 / W of the node (from its first candidate)
-    base[seg.cand_node[seg.node_first]] = -total_s[seg.node_first] ** 2 / total_w[seg.node_first]
+    first = total[seg.node_first]  # the decrease is score - S**2 / W of the node (from its first candidate)
+    base = np.zeros_like(parent)
+    base[seg.cand_node[seg.node_first]] = -first.imag ** 2 / first.real
     nodes, pick, decrease = _pick(seg, parent, base, tie, score)
     none = np.zeros(pick.size)
     record_sides(seg, out, nodes, pick, seg.candidate(pick), (left_w[pick], none), (right_w[pick], none))

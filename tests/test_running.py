@@ -12,7 +12,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from forestlab._running import prefix_sum, running_sums
+from forestlab._running import running_sums
 
 
 @st.composite
@@ -60,22 +60,16 @@ def test_a_tree_sums_alike_alone_and_batched(case):
         assert alone.tobytes() == left[lo:hi].tobytes()
 
 
-@given(st.lists(st.floats(-1e6, 1e6, allow_subnormal=False), max_size=200), st.booleans())
-def test_prefix_sum_equals_cumsum(values, in_place):
-    x = np.array(values, dtype=float)
-    expected = np.cumsum(x)
-    out = x if in_place else np.empty_like(x)
-    with np.errstate(under="ignore"):  # a bound for tiny values may underflow; the sums themselves do not
-        bound = 2 * x.size * np.finfo(float).eps * np.abs(x).sum()  # both within (n - 1) eps sum|x| of exact
-    got = prefix_sum(x.copy() if not in_place else x, out)
-    np.testing.assert_allclose(got, expected, rtol=0, atol=bound + 1e-300)
-
-
-@pytest.mark.parametrize("size", [4095, 4096, 4097, 5003, 8191, 65_536])
-def test_blocked_prefix_sum_of_long_arrays(size):
-    # long arrays take the blocked path (short ones a plain cumsum); the same error bound holds
-    x = np.random.default_rng(size).normal(size=size) * 100
-    bound = 2 * x.size * np.finfo(float).eps * np.abs(x).sum()
-    for out in (np.empty_like(x), None):
-        got = prefix_sum(x.copy(), np.empty_like(x)) if out is not None else prefix_sum(y := x.copy(), y)
-        np.testing.assert_allclose(got, np.cumsum(x), rtol=0, atol=bound)
+@given(segmented(integer=True), st.data())
+def test_complex_running_sums_carry_two_channels(case, data):
+    # the squared-error search packs an integer weight W and a float sum S as W + 1j * S: the real part must
+    # come out exact and the imaginary part within the usual summation error of per-segment sums
+    weights, start, trees = case
+    sums = np.array(data.draw(st.lists(st.floats(-1e3, 1e3, allow_subnormal=False), min_size=weights.size,
+                                       max_size=weights.size)))
+    left, totals = running_sums(weights + 1j * sums, start, trees)
+    np.testing.assert_array_equal(left.real, per_segment(weights, start))
+    np.testing.assert_array_equal(totals.real, np.add.reduceat(weights, start))
+    with np.errstate(under="ignore"):
+        bound = 4 * sums.size * np.finfo(float).eps * np.abs(sums).sum()  # summation error, common practice
+    np.testing.assert_allclose(left.imag, per_segment(sums, start), rtol=0, atol=bound + 1e-300)
