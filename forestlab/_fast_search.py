@@ -6,9 +6,10 @@ the gathers at the cuts, and keep their large temporaries in the batch's scratch
 *Two classes* (Gini or entropy, no case weights): every summed statistic is
 an integer count, so the two channels the search needs, the bootstrap weight ``W`` and the class-1 count
 ``c1``, travel packed in one int64 (``W + c1 * 2**32``): one gather, one integer ``cumsum`` (exact, so in any
-order), and ``c0 = W - c1``. Entropy is computed with the entropy splitter's own operations; Gini takes the
-shorter ``W i = 2 c0 c1 / W``, equal to the generic value up to its rounding. Scores are formed relative to
-the node (the decrease less the node's ``W i(t)``), so the chosen split can differ from the generic search's
+order), and ``c0 = W - c1``. Entropy is computed with the entropy splitter's own operations. Gini uses
+``W i = 2 c0 c1 / W = 2 (c1 - c1**2 / W)``, so a cut scores ``c1_l**2 / W_l + c1_r**2 / W_r`` (two
+divisions per element), half the decrease plus the node's ``c1**2 / W``; equal to the generic value up to
+rounding. Scores are formed relative to the node, so the chosen split can differ from the generic search's
 only between splits whose scores differ by about the tie tolerance.
 
 *Squared error*: the running sums of the case weight and of the weighted centred target only (no second
@@ -154,17 +155,22 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
     # read now: the left sums' buffer is reused below
     heavier_left = np.greater_equal(wl, wr, out=scratch(work, "heavier_left", L, np.bool_))
     with np.errstate(divide="ignore", invalid="ignore"):
-        score = scratch(work, "score", L, np.float64)  # minus the children's W i: the decrease less W_t i(t)
-        if type(splitter) is EntropySplitter:
+        score = scratch(work, "score", L, np.float64)
+        if type(splitter) is EntropySplitter:  # minus the children's W i: the decrease less W_t i(t)
             tmp = scratch(work, "tmp1", L, np.float64)
             wl, cl = _unpack(left, work, ("wl", "cl"))
             wr, cr = _unpack(right, work, ("wr", "cr"))
             np.negative(_weighted_entropy(wl, cl, score, tmp), out=score)
             score -= _weighted_entropy(wr, cr, scratch(work, "imp", L, np.float64), tmp)
-        else:
-            np.negative(_weighted_gini(wl, cl, score), out=score)
-            score -= _weighted_gini(wr, cr, left.view(np.float64))  # the left sums are spent: reuse
-    nodes, pick, decrease = _pick(seg, parent, parent, tie, score)
+            nodes, pick, decrease = _pick(seg, parent, parent, tie, score)
+        else:  # half the Gini decrease less the node's constant; the left sums are spent once divided
+            _half_gini_score(wl, cl, score)
+            score += _half_gini_score(wr, cr, left.view(np.float64))
+            node_w, node_c1 = _halves(total[seg.node_first])
+            base = np.zeros_like(parent)
+            base[seg.cand_node[seg.node_first]] = -np.square(node_c1, dtype=np.float64) / node_w
+            nodes, pick, decrease = _pick(seg, 0.5 * parent, base, tie, score)
+            decrease *= 2.0
     cand = seg.candidate(pick)
     right_at = right[pick]
     (wr, cr), (wl, cl) = _halves(right_at), _halves(total[cand] - right_at)
@@ -186,14 +192,16 @@ def segment_broadcast(total: NDArray[np.int64], start: NDArray[np.int64], out: N
     return np.cumsum(out, out=out)
 
 
-def _weighted_gini(W, c1, out):
-    """``W i`` for two-class Gini: ``W (1 - p0**2 - p1**2) = 2 c0 c1 / W``, from the exact integer counts
-    (int32 views; the product is formed in floats, exact below 2**53), so with one rounding."""
-    g = np.subtract(W, c1, out=out, dtype=np.float64)
-    g *= c1
-    g /= W
-    g *= 2.0
-    return g
+def _half_gini_score(W, c1, out):
+    """``c1**2 / W`` into ``out`` from the exact integer counts (int32 views; the square is formed in floats,
+    exact below 2**53), so with one rounding.
+
+    Two-class Gini gives ``W i = 2 c0 c1 / W = 2 (c1 - c1**2 / W)``, so a cut's decrease is ``2 (c1_l**2 / W_l
+    + c1_r**2 / W_r - c1**2 / W)``: half of it, less the node's constant, is the sum of this over the sides.
+    """
+    np.multiply(c1, c1, out=out, dtype=np.float64)
+    out /= W
+    return out
 
 
 def squared_error_best_splits(seg, min_leaf: float, lightest: float, packed, parent, out, tie: float,

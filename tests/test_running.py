@@ -8,7 +8,6 @@ trees in the batch (forestlab's rule: a tree's arithmetic never depends on its b
 from __future__ import annotations
 
 import numpy as np
-import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
