@@ -151,7 +151,7 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
     right = segment_broadcast(total, seg.start, out=seg.code)  # the codes are spent: their buffer is reused
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
-    _exclude_light(seg.no_cut, wl, wr, min_leaf, lightest)
+    _exclude_light(seg, wl, wr, min_leaf, lightest)
     # read now: the left sums' buffer is reused below
     heavier_left = np.greater_equal(wl, wr, out=scratch(work, "heavier_left", L, np.bool_))
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -178,10 +178,25 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
     return record_cuts(seg, out, nodes, pick, decrease, heavier_left[pick])
 
 
-def _exclude_light(no_cut, wl, wr, min_leaf: float, lightest: float) -> None:
-    """Mark the cuts that leave less than ``min_leaf`` on a side (none can when every case weighs more)."""
-    if min_leaf > lightest:
-        no_cut |= np.minimum(wl, wr) < min_leaf
+def _exclude_light(seg, wl, wr, min_leaf: float, lightest: float) -> None:
+    """Mark in ``seg.no_cut`` the cuts that leave less than ``min_leaf`` on a side (none can when every item
+    weighs more).
+
+    Every item weighs at least ``lightest``, so only the first ``r = ceil(min_leaf / lightest)`` elements of a
+    segment can have a light left side and only its last ``r + 1`` a light right side. Where segments are
+    long, only those are checked.
+    """
+    if min_leaf <= lightest:
+        return
+    reach = int(np.ceil(min_leaf / lightest))
+    L, C = wl.size, seg.start.size
+    if 4 * C * (2 * reach + 1) >= L:
+        seg.no_cut |= np.minimum(wl, wr) < min_leaf
+        return
+    lead = seg.start[:, None] + np.arange(reach)
+    trail = (seg.start + seg.size - 1)[:, None] - np.arange(reach + 1)
+    ends = np.concatenate([lead[lead < (seg.start + seg.size)[:, None]], trail[trail >= seg.start[:, None]]])
+    seg.no_cut[ends] |= np.minimum(wl[ends], wr[ends]) < min_leaf
 
 
 def segment_broadcast(total: NDArray[np.int64], start: NDArray[np.int64], out: NDArray[np.int64]):
@@ -219,7 +234,7 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, packed, par
     right = np.take(total, seg.cand_of, out=scratch(work, "right_ws", L, np.complex128), mode="clip")
     right -= left
     left_w, left_s, right_w, right_s = left.real, left.imag, right.real, right.imag
-    _exclude_light(seg.no_cut, left_w, right_w, min_leaf, lightest)
+    _exclude_light(seg, left_w, right_w, min_leaf, lightest)
     with np.errstate(divide="ignore", invalid="ignore"):
         score = np.multiply(left_s, left_s, out=scratch(work, "score", L, np.float64))
         score /= left_w

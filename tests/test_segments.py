@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import forestlab as fl
 from forestlab._search import Items, _sorted_segments
@@ -50,3 +52,25 @@ def test_segments_are_each_node_sorted_by_value_ties_in_item_order(n, p, nodes, 
     inner = np.ones(seg.item.size, dtype=bool)
     inner[seg.start[1:] - 1] = False  # the last element of each segment is decided by the search
     np.testing.assert_array_equal(seg.no_cut[inner], ref_no_cut[inner])
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.integers(1, 120), min_size=1, max_size=8), st.sampled_from([1.0, 0.3, 0.75]),
+       st.sampled_from([2.0, 5.0, 7.5]), st.integers(0, 2**16))
+def test_light_cuts_match_their_definition(sizes, lightest, min_leaf, seed):
+    """A cut is excluded where either side weighs less than min_leaf (Breiman et al. 1984, minimum node
+    size); the search checks only the elements near segment ends when segments are long. Reference: the
+    definition applied to every element, with running sums written here."""
+    from types import SimpleNamespace
+
+    from forestlab._fast_search import _exclude_light
+
+    rng = np.random.default_rng(seed)
+    size = np.array(sizes)
+    start = np.cumsum(size) - size
+    w = lightest * rng.choice([1.0, 1.0, 2.0, 3.0], size=size.sum())
+    left = np.concatenate([np.cumsum(w[a:a + k]) for a, k in zip(start, size)])
+    right = np.repeat(np.add.reduceat(w, start), size) - left
+    seg = SimpleNamespace(start=start, size=size, no_cut=np.zeros(w.size, dtype=bool))
+    _exclude_light(seg, left, right, min_leaf, lightest)
+    np.testing.assert_array_equal(seg.no_cut, np.minimum(left, right) < min_leaf)
