@@ -175,7 +175,7 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
     right_at = right[pick]
     (wr, cr), (wl, cl) = _halves(right_at), _halves(total[cand] - right_at)
     record_sides(seg, out, nodes, pick, cand, (wl, cl), (wr, cr))
-    return record_cuts(seg, out, nodes, pick, decrease, heavier_left[pick])
+    return record_cuts(seg, out, nodes, pick, decrease, heavier_left[pick], cand)
 
 
 def _exclude_light(seg, wl, wr, min_leaf: float, lightest: float) -> None:
@@ -246,8 +246,10 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, packed, par
     base[seg.cand_node[seg.node_first]] = -first.imag ** 2 / first.real
     nodes, pick, decrease = _pick(seg, parent, base, tie, score)
     none = np.zeros(pick.size)
-    record_sides(seg, out, nodes, pick, seg.candidate(pick), (left_w[pick], none), (right_w[pick], none))
-    return record_cuts(seg, out, nodes, pick, decrease, left_w[pick] >= right_w[pick])
+    cand = seg.candidate(pick)
+    lw, rw = left[pick].real, right_w[pick]
+    record_sides(seg, out, nodes, pick, cand, (lw, none), (rw, none))
+    return record_cuts(seg, out, nodes, pick, decrease, lw >= rw, cand)
 
 
 def _pick(seg, parent, base, tie, score):
@@ -280,20 +282,28 @@ def record_sides(seg, out, nodes, element, cand, left, right) -> None:
     summed weight, class-1 count (two classes; 0 otherwise) and number of items, so the next level need not
     sum them again (exact where they are integers)."""
     items_left = element - seg.start[cand] + 1
-    out.sides[nodes, 0] = np.column_stack([left[0], left[1], items_left])
-    out.sides[nodes, 1] = np.column_stack([right[0], right[1], seg.size[cand] - items_left])
+    sides = out.sides[nodes]
+    sides[:, 0, 0], sides[:, 0, 1], sides[:, 0, 2] = left[0], left[1], items_left
+    sides[:, 1, 0], sides[:, 1, 1], sides[:, 1, 2] = right[0], right[1], seg.size[cand] - items_left
+    out.sides[nodes] = sides
 
 
-def record_cuts(seg, out, nodes, element, decrease, heavier_left):
-    """Write the cut after sorted ``element`` of each of ``nodes`` into ``out``: its feature, the midpoint of
-    the neighbouring distinct values as threshold (the lower value where the midpoint rounds onto the upper
-    one) and the dense rank of the lower value, the decrease, and missing values sent to the heavier child."""
-    lo, hi = seg.values(element), seg.values(element + 1)
+def record_cuts(seg, out, nodes, element, decrease, heavier_left, cand=None):
+    """Write the cut after sorted ``element`` (of candidate ``cand``, found if not given) of each of ``nodes``
+    into ``out``: its feature, the midpoint of the neighbouring distinct values as threshold (the lower value
+    where the midpoint rounds onto the upper one) and the dense rank of the lower value, the decrease, and
+    missing values sent to the heavier child."""
+    feature = seg.cand_feat[seg.candidate(element) if cand is None else cand]
+    if seg.x is None:  # the fast paths: read the two values of each cut from X
+        row = seg.rows_of(element)
+        lo, hi = seg.data.X[row, feature], seg.data.X[seg.rows_of(element + 1), feature]
+    else:
+        row = seg.row[element]
+        lo, hi = seg.x[element], seg.x[element + 1]
     threshold = 0.5 * lo + 0.5 * hi
-    feature = seg.cand_feat[seg.candidate(element)]
     out.found[nodes] = True
     out.feature[nodes] = feature
-    out.cut_rank[nodes] = seg.data.dense[feature, seg.rows_of(element)]
+    out.cut_rank[nodes] = seg.data.dense[feature, row]
     out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
     out.decrease[nodes] = decrease
     out.missing_left[nodes] = heavier_left
