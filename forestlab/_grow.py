@@ -178,15 +178,18 @@ def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.
 
 def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
     """Send the items of split nodes to their children (order within each tree kept)."""
-    kept = items.take(np.flatnonzero(splits.found[items.node]))
+    found = splits.found
+    kept = items if found.all() else items.take(np.flatnonzero(found[items.node]))
     row, node = kept.row, kept.node
     if data.missing or data.category_words:
         go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
                               splits.category_left, data.missing)
     else:  # numeric without gaps: above the cut's dense rank (the nodes' values lie on either side of it)
-        go_right = data.dense.ravel()[splits.feature[node] * data.rows + row] > splits.cut_rank[node]
-    child_rank = np.cumsum(splits.found) - 1
-    return Items(row, 2 * child_rank[node] + go_right, kept.wi)
+        at = np.take(splits.feature * data.rows, node)
+        at += row
+        go_right = np.take(data.dense.ravel(), at) > np.take(splits.cut_rank, node)
+    left_child = 2 * (np.cumsum(found) - 1)
+    return Items(row, np.take(left_child, node) + go_right, kept.wi)
 
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:
