@@ -151,8 +151,8 @@ def _node_summaries(data: TrainingData, batch, items: Items, K: int):
 def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, closed, open_nodes):
     """Best split of every open node; per-node samplers fall back to the other features if none splits."""
     if closed.any():
-        sub_items = items.take(np.flatnonzero(~closed[items.node]))
-        sub_items.node = (np.cumsum(~closed) - 1)[sub_items.node]
+        sub_items = items.take(np.flatnonzero(np.take(~closed, items.node)))
+        sub_items.node = np.take(np.cumsum(~closed) - 1, sub_items.node)
     else:
         sub_items = items
     sub_tree = node_tree[open_nodes]
@@ -163,7 +163,7 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     if rules.sampler.per_tree or splits.found.all():
         return splits
     retry = ~mask & ~splits.found[:, None]
-    again = best_splits(*search, sub_items.take(np.flatnonzero(~splits.found[sub_items.node])), sub_tree, retry,
+    again = best_splits(*search, sub_items.take(np.flatnonzero(np.take(~splits.found, sub_items.node))), sub_tree, retry,
                         parent)
     splits.update(again.found, again, again.found)
     return splits
@@ -179,7 +179,7 @@ def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.
 def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
     """Send the items of split nodes to their children (order within each tree kept)."""
     found = splits.found
-    kept = items if found.all() else items.take(np.flatnonzero(found[items.node]))
+    kept = items if found.all() else items.take(np.flatnonzero(np.take(found, items.node)))
     row, node = kept.row, kept.node
     if data.missing or data.category_words:
         go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,

@@ -37,8 +37,8 @@ class Items:
     wi: NDArray[np.int64]
 
     def take(self, keep: NDArray[np.intp]) -> Items:
-        row = self.row[keep]
-        return Items(row, self.node[keep], row if self.wi is self.row else self.wi[keep])
+        row = np.take(self.row, keep)
+        return Items(row, np.take(self.node, keep), row if self.wi is self.row else np.take(self.wi, keep))
 
 
 @dataclass
