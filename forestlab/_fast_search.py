@@ -148,7 +148,7 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
     L = seg.item.size
     elem = np.take(packed, seg.item, out=scratch(work, "elem", L, np.int64), mode="clip")
     left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
-    right = segment_broadcast(total, seg.start, out=seg.code)  # the codes are spent: their buffer is reused
+    right = segment_totals(seg, total, seg.code)  # the codes are spent: their buffer may be reused
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
     _exclude_light(seg, wl, wr, min_leaf, lightest)
@@ -199,6 +199,16 @@ def _exclude_light(seg, wl, wr, min_leaf: float, lightest: float) -> None:
     seg.no_cut[ends] |= np.minimum(wl[ends], wr[ends]) < min_leaf
 
 
+def segment_totals(seg, total: NDArray, out: NDArray) -> NDArray:
+    """Every element's segment total: ``total`` repeated over the segments where they are long (``np.repeat``
+    copies runs), else one gather by candidate (integers: one ``cumsum`` of the steps into ``out``)."""
+    if total.size * 4 <= out.size:
+        return np.repeat(total, seg.size)
+    if total.dtype.kind in "iu":
+        return segment_broadcast(total, seg.start, out)
+    return np.take(total, seg.cand_of, out=out, mode="clip")
+
+
 def segment_broadcast(total: NDArray[np.int64], start: NDArray[np.int64], out: NDArray[np.int64]):
     """``out[e] = total[segment of e]`` for integers, by one ``cumsum`` of the steps at segment starts."""
     out[:] = 0
@@ -231,7 +241,7 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, packed, par
     L = seg.item.size
     elem = np.take(packed, seg.item, out=scratch(work, "elem_ws", L, np.complex128), mode="clip")
     left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
-    right = np.take(total, seg.cand_of, out=scratch(work, "right_ws", L, np.complex128), mode="clip")
+    right = segment_totals(seg, total, scratch(work, "right_ws", L, np.complex128))
     right -= left
     left_w, left_s, right_w, right_s = left.real, left.imag, right.real, right.imag
     _exclude_light(seg, left_w, right_w, min_leaf, lightest)

@@ -163,8 +163,8 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     if rules.sampler.per_tree or splits.found.all():
         return splits
     retry = ~mask & ~splits.found[:, None]
-    again = best_splits(*search, sub_items.take(np.flatnonzero(np.take(~splits.found, sub_items.node))), sub_tree, retry,
-                        parent)
+    unsplit = sub_items.take(np.flatnonzero(np.take(~splits.found, sub_items.node)))
+    again = best_splits(*search, unsplit, sub_tree, retry, parent)
     splits.update(again.found, again, again.found)
     return splits
 
