@@ -199,15 +199,17 @@ def _exclude_light(seg, wl, wr, min_leaf: float, lightest: float) -> None:
     seg.no_cut[ends] |= np.minimum(wl[ends], wr[ends]) < min_leaf
 
 
-def segment_totals(seg, total: NDArray, out: NDArray) -> NDArray:
+def segment_totals(seg, total: NDArray, out: NDArray | None = None, work: Workspace | None = None) -> NDArray:
     """Every element's segment total. Integers: one ``cumsum`` of the steps into ``out`` (no new array:
     the two-class search lends the spent codes). Floats: ``total`` repeated over the segments where they are
     long (``np.repeat`` copies runs, under 1 ns an element here), else one gather by candidate (about 3.7 ns
-    for complex values)."""
+    for complex values; into ``out`` or a scratch buffer of ``work``)."""
+    L = seg.item.size
     if total.dtype.kind in "iu":
         return segment_broadcast(total, seg.start, out)
-    if total.size * 4 <= out.size:
+    if total.size * 4 <= L:
         return np.repeat(total, seg.size)
+    out = scratch(work, "segment_totals", L, total.dtype) if out is None else out
     return np.take(total, seg.cand_of, out=out, mode="clip")
 
 
@@ -243,7 +245,7 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, packed, par
     L = seg.item.size
     elem = np.take(packed, seg.item, out=scratch(work, "elem_ws", L, np.complex128), mode="clip")
     left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
-    right = segment_totals(seg, total, scratch(work, "right_ws", L, np.complex128))
+    right = segment_totals(seg, total, work=work)
     right -= left
     left_w, left_s, right_w, right_s = left.real, left.imag, right.real, right.imag
     _exclude_light(seg, left_w, right_w, min_leaf, lightest)
