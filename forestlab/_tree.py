@@ -181,13 +181,17 @@ def _descend_from(step, flat: NDArray[np.float64], base: NDArray[np.intp], here:
     level = 0
     while here.size:
         if level % _COMPACT_EVERY == 0:
-            at_leaf = leaf[here]
+            at_leaf = np.take(leaf, here)
             if at_leaf.any():
                 done = np.flatnonzero(at_leaf)
-                node[active[done]] = here[done]
+                node[np.take(active, done)] = np.take(here, done)
                 inner = np.flatnonzero(~at_leaf)
-                active, base, here = active[inner], base[inner], here[inner]
-        here = left[here] + (flat[base + feature[here]] > threshold[here])
+                active, base, here = np.take(active, inner), np.take(base, inner), np.take(here, inner)
+        at = np.take(feature, here)
+        at += base
+        right = np.take(flat, at) > np.take(threshold, here)
+        here = np.take(left, here)
+        here += right
         level += 1
     return node
 
