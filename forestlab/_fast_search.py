@@ -53,7 +53,7 @@ class FastPath:
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, out,
                     tie: float, work: Workspace | None):
         """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
-        column = np.take(self.columns[0], items.wi)
+        column = np.take(self.columns[0], items.wi, mode="clip")
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, column, parent, out, tie, work)
         return squared_error_best_splits(seg, min_leaf, lightest, column, parent, out, tie, work)
@@ -63,11 +63,12 @@ class FastPath:
         weight, the class-1 count (two classes; 0 otherwise) and the number of items of every node."""
         out = np.zeros((K, 3))
         if self.kind == "binary":
-            low, high = _halves(np.take(self.columns[0], items.wi))
+            low, high = _halves(np.take(self.columns[0], items.wi, mode="clip"))
             out[:, 0] = np.bincount(items.node, weights=low, minlength=K)
             out[:, 1] = np.bincount(items.node, weights=high, minlength=K)
         elif self.data.weights is None:  # (with case weights the summaries sum the weights themselves)
-            out[:, 0] = np.bincount(items.node, weights=np.take(self.columns[0].real, items.wi), minlength=K)
+            weight = np.take(self.columns[0].real, items.wi, mode="clip")
+            out[:, 0] = np.bincount(items.node, weights=weight, minlength=K)
         out[:, 2] = np.bincount(items.node, minlength=K)
         return out
 
@@ -84,7 +85,7 @@ class FastPath:
         # the segments before theirs); the weights are the parent's when they are integers (no case weights)
         ws, second = self.columns
         floats = (ws.imag, second) if data.weights is None else (ws.real, ws.imag, second)
-        sums = [np.bincount(items.node, weights=np.take(c, items.wi), minlength=K) for c in floats]
+        sums = [np.bincount(items.node, weights=np.take(c, items.wi, mode="clip"), minlength=K) for c in floats]
         if data.weights is not None:
             weight = sums.pop(0)
         summed, second = sums

@@ -133,7 +133,7 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
 
 def _node_summaries(data: TrainingData, batch, items: Items, K: int):
     """Per node: case weight, summed statistics, leaf value and whether all targets are equal."""
-    item_stats = np.take(batch.stats, items.wi, axis=1)
+    item_stats = np.take(batch.stats, items.wi, axis=1, mode="clip")
     totals = np.stack([np.bincount(items.node, weights=channel, minlength=K) for channel in item_stats], axis=1)
     weight = totals[:, 0]
     y = data.target[items.row]
@@ -151,8 +151,8 @@ def _node_summaries(data: TrainingData, batch, items: Items, K: int):
 def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, closed, open_nodes):
     """Best split of every open node; per-node samplers fall back to the other features if none splits."""
     if closed.any():
-        sub_items = items.take(np.flatnonzero(np.take(~closed, items.node)))
-        sub_items.node = np.take(np.cumsum(~closed) - 1, sub_items.node)
+        sub_items = items.take(np.flatnonzero(np.take(~closed, items.node, mode="clip")))
+        sub_items.node = np.take(np.cumsum(~closed) - 1, sub_items.node, mode="clip")
     else:
         sub_items = items
     sub_tree = node_tree[open_nodes]
@@ -163,7 +163,7 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     if rules.sampler.per_tree or splits.found.all():
         return splits
     retry = ~mask & ~splits.found[:, None]
-    unsplit = sub_items.take(np.flatnonzero(np.take(~splits.found, sub_items.node)))
+    unsplit = sub_items.take(np.flatnonzero(np.take(~splits.found, sub_items.node, mode="clip")))
     again = best_splits(*search, unsplit, sub_tree, retry, parent)
     splits.update(again.found, again, again.found)
     return splits
@@ -179,17 +179,17 @@ def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.
 def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
     """Send the items of split nodes to their children (order within each tree kept)."""
     found = splits.found
-    kept = items if found.all() else items.take(np.flatnonzero(np.take(found, items.node)))
+    kept = items if found.all() else items.take(np.flatnonzero(np.take(found, items.node, mode="clip")))
     row, node = kept.row, kept.node
     if data.missing or data.category_words:
         go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
                               splits.category_left, data.missing)
     else:  # numeric without gaps: above the cut's dense rank (the nodes' values lie on either side of it)
-        at = np.take(splits.feature * data.rows, node)
+        at = np.take(splits.feature * data.rows, node, mode="clip")
         at += row
-        go_right = np.take(data.dense.ravel(), at) > np.take(splits.cut_rank, node)
+        go_right = np.take(data.dense.ravel(), at, mode="clip") > np.take(splits.cut_rank, node, mode="clip")
     left_child = 2 * (np.cumsum(found) - 1)
-    return Items(row, np.take(left_child, node) + go_right, kept.wi)
+    return Items(row, np.take(left_child, node, mode="clip") + go_right, kept.wi)
 
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:

@@ -70,10 +70,10 @@ class TrainingData:
         cases). Regression targets that never repeat settle it from ``count``, the cases per node, if given."""
         if self.distinct_targets:  # every case a target of its own: one value means one case
             return (np.bincount(node, minlength=K) if count is None else count) == 1
-        y = np.take(self.target, row)
+        y = np.take(self.target, row, mode="clip")
         reference = np.empty(K, dtype=y.dtype)
         reference[node] = y
-        return np.bincount(node, weights=(y != np.take(reference, node)), minlength=K) == 0
+        return np.bincount(node, weights=(y != np.take(reference, node, mode="clip")), minlength=K) == 0
 
     @property
     def rows(self) -> int:

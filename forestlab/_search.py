@@ -37,8 +37,9 @@ class Items:
     wi: NDArray[np.int64]
 
     def take(self, keep: NDArray[np.intp]) -> Items:
-        row = np.take(self.row, keep)
-        return Items(row, np.take(self.node, keep), row if self.wi is self.row else np.take(self.wi, keep))
+        row = np.take(self.row, keep, mode="clip")
+        wi = row if self.wi is self.row else np.take(self.wi, keep, mode="clip")
+        return Items(row, np.take(self.node, keep, mode="clip"), wi)
 
 
 @dataclass
@@ -151,17 +152,17 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, bat
     stats, lightest = batch.stats, batch.lightest
     seg.materialise()
     order = _order_categories(data, seg, stats[0]) if data.category_words else None
-    elem = np.take(stats, seg.wi, axis=1)
+    elem = np.take(stats, seg.wi, axis=1, mode="clip")
     missing = _missing_totals(seg, elem) if data.missing else None
     cs, totals = running_sums(elem, seg.start, seg.cand_tree)
     cut = _distinct_cuts(seg)
     if cut.size == 0:
         return out
-    left = np.take(cs, cut, axis=1)
-    right = np.take(totals, seg.cand_of[cut], axis=1) - left
+    left = np.take(cs, cut, axis=1, mode="clip")
+    right = np.take(totals, seg.cand_of[cut], axis=1, mode="clip") - left
     node = seg.cand_node[seg.cand_of[cut]]
     score, missing_side = _scores(splitter, min_leaf, lightest, left, right, parent[node],
-                                  None if missing is None else np.take(missing, seg.cand_of[cut], axis=1))
+                                  None if missing is None else np.take(missing, seg.cand_of[cut], axis=1, mode="clip"))
     if min_leaf > lightest:
         ok = np.flatnonzero(score > -np.inf)
         if ok.size == 0:

@@ -181,16 +181,16 @@ def _descend_from(step, flat: NDArray[np.float64], base: NDArray[np.intp], here:
     level = 0
     while here.size:
         if level % _COMPACT_EVERY == 0:
-            at_leaf = np.take(leaf, here)
+            at_leaf = np.take(leaf, here, mode="clip")
             if at_leaf.any():
                 done = np.flatnonzero(at_leaf)
-                node[np.take(active, done)] = np.take(here, done)
+                node[np.take(active, done, mode="clip")] = np.take(here, done, mode="clip")
                 inner = np.flatnonzero(~at_leaf)
-                active, base, here = np.take(active, inner), np.take(base, inner), np.take(here, inner)
-        at = np.take(feature, here)
+                active, base, here = (np.take(a, inner, mode="clip") for a in (active, base, here))
+        at = np.take(feature, here, mode="clip")
         at += base
-        right = np.take(flat, at) > np.take(threshold, here)
-        here = np.take(left, here)
+        right = np.take(flat, at, mode="clip") > np.take(threshold, here, mode="clip")
+        here = np.take(left, here, mode="clip")
         here += right
         level += 1
     return node
