@@ -40,9 +40,10 @@ class FastPath:
     """A batch's statistics packed for one of the specialised searches, one entry per (slot, row).
 
     ``kind`` is ``"binary"`` (``columns = (W + c1 * 2**32,)``, int64) or ``"squared_error"`` (``columns =
-    (W + 1j * S1, S2)``: the case weight (the bootstrap count when there are no case weights) and the
-    weighted centred target as one complex128, and the weighted square of the centred target; the search
-    reads the first, the node sums both).
+    (W + 1j * S1, S1, S2)`` and, with case weights, ``W`` last: the case weight (the bootstrap count when
+    there are no case weights) and the weighted centred target as one complex128 for the search, and the
+    weighted centred target, its square and the weight as contiguous float64 for the node sums, which
+    gather them faster than the parts of the complex column).
     """
 
     kind: str
@@ -83,8 +84,7 @@ class FastPath:
                 (c0 == 0) | (summed == 0)
         # floating-point sums from the items, not from the parent's running sums (those carry the rounding of
         # the segments before theirs); the weights are the parent's when they are integers (no case weights)
-        ws, second = self.columns
-        floats = (ws.imag, second) if data.weights is None else (ws.real, ws.imag, second)
+        floats = self.columns[1:3] if data.weights is None else (self.columns[3], *self.columns[1:3])
         sums = [np.bincount(items.node, weights=np.take(c, items.wi, mode="clip"), minlength=K) for c in floats]
         if data.weights is not None:
             weight = sums.pop(0)
@@ -104,11 +104,14 @@ def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uin
         w = counts.astype(np.int64)
         return FastPath("binary", ((w + ((w * (data.target == 1)) << 32)).ravel(),), data)
     if type(splitter) is SquaredErrorSplitter:
+        weight = counts if data.weights is None else counts * data.stats[:, 0]
+        first = counts * data.stats[:, 1]
         ws = np.empty(counts.shape, dtype=np.complex128)
-        ws.real = counts if data.weights is None else counts * data.stats[:, 0]
-        ws.imag = counts * data.stats[:, 1]
-        return FastPath("squared_error", (ws.ravel(), (counts * data.stats[:, 2]).ravel()), data,
-                        float(data.target.mean()))
+        ws.real, ws.imag = weight, first
+        columns = (ws.ravel(), first.ravel(), (counts * data.stats[:, 2]).ravel())
+        if data.weights is not None:
+            columns += (np.ravel(weight),)
+        return FastPath("squared_error", columns, data, float(data.target.mean()))
     return None
 
 
