@@ -162,10 +162,13 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     splits = best_splits(*search, sub_items, sub_tree, mask, parent)
     if rules.sampler.per_tree or splits.found.all():
         return splits
-    retry = ~mask & ~splits.found[:, None]
+    # the nodes without a split, numbered among themselves (every one then has the same number of
+    # candidates under RandomSubset, which keeps the search on its fast whole-array path)
+    todo = np.flatnonzero(~splits.found)
     unsplit = sub_items.take(np.flatnonzero(np.take(~splits.found, sub_items.node, mode="clip")))
-    again = best_splits(*search, unsplit, sub_tree, retry, parent)
-    splits.update(again.found, again, again.found)
+    unsplit.node = np.take(np.cumsum(~splits.found) - 1, unsplit.node, mode="clip")
+    again = best_splits(*search, unsplit, sub_tree[todo], ~mask[todo], parent[todo])
+    splits.update(todo[again.found], again, again.found)
     return splits
 
 
