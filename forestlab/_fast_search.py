@@ -171,8 +171,7 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
             _half_gini_score(wl, cl, score)
             score += _half_gini_score(wr, cr, left.view(np.float64))
             node_w, node_c1 = _halves(total[seg.node_first])
-            base = np.zeros_like(parent)
-            base[seg.cand_node[seg.node_first]] = -np.square(node_c1, dtype=np.float64) / node_w
+            base = _per_node(seg, parent, -np.square(node_c1, dtype=np.float64) / node_w)
             nodes, pick, decrease = _pick(seg, 0.5 * parent, base, tie, score)
             decrease *= 2.0
     cand = seg.candidate(pick)
@@ -259,15 +258,22 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, packed, par
         tmp = np.multiply(right_s, right_s, out=scratch(work, "tmp1", L, np.float64))
         tmp /= right_w
         score += tmp
-    first = total[seg.node_first]  # the decrease is score - S**2 / W of the node (from its first candidate)
-    base = np.zeros_like(parent)
-    base[seg.cand_node[seg.node_first]] = -first.imag ** 2 / first.real
+    first = total[seg.node_first]  # the decrease is score - S**2 / W of the node
+    base = _per_node(seg, parent, -first.imag ** 2 / first.real)
     nodes, pick, decrease = _pick(seg, parent, base, tie, score)
     none = np.zeros(pick.size)
     cand = seg.candidate(pick)
     lw, rw = left[pick].real, right_w[pick]
     record_sides(seg, out, nodes, pick, cand, (lw, none), (rw, none))
     return record_cuts(seg, out, nodes, pick, decrease, lw >= rw, cand)
+
+
+def _per_node(seg, parent, values):
+    """A (K,) array like ``parent`` holding ``values`` (one per node with candidates, from the totals of its
+    first candidate's segment) at those nodes, 0 elsewhere."""
+    out = np.zeros_like(parent)
+    out[seg.cand_node[seg.node_first]] = values
+    return out
 
 
 def _pick(seg, parent, base, tie, score):
@@ -312,11 +318,10 @@ def record_cuts(seg, out, nodes, element, decrease, heavier_left, cand=None):
     where the midpoint rounds onto the upper one) and the dense rank of the lower value, the decrease, and
     missing values sent to the heavier child."""
     feature = seg.cand_feat[seg.candidate(element) if cand is None else cand]
+    row = seg.rows_of(element)
     if seg.x is None:  # the fast paths: read the two values of each cut from X
-        row = seg.rows_of(element)
         lo, hi = seg.data.X[row, feature], seg.data.X[seg.rows_of(element + 1), feature]
     else:
-        row = seg.row[element]
         lo, hi = seg.x[element], seg.x[element + 1]
     threshold = 0.5 * lo + 0.5 * hi
     out.found[nodes] = True

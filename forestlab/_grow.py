@@ -150,11 +150,7 @@ def _node_summaries(data: TrainingData, batch, items: Items, K: int):
 
 def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, closed, open_nodes):
     """Best split of every open node; per-node samplers fall back to the other features if none splits."""
-    if closed.any():
-        sub_items = items.take(np.flatnonzero(np.take(~closed, items.node, mode="clip")))
-        sub_items.node = np.take(np.cumsum(~closed) - 1, sub_items.node, mode="clip")
-    else:
-        sub_items = items
+    sub_items = _items_of(items, ~closed) if closed.any() else items
     sub_tree = node_tree[open_nodes]
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * checked_impurity(rules.splitter, totals[open_nodes])
@@ -165,11 +161,16 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     # the nodes without a split, numbered among themselves (every one then has the same number of
     # candidates under RandomSubset, which keeps the search on its fast whole-array path)
     todo = np.flatnonzero(~splits.found)
-    unsplit = sub_items.take(np.flatnonzero(np.take(~splits.found, sub_items.node, mode="clip")))
-    unsplit.node = np.take(np.cumsum(~splits.found) - 1, unsplit.node, mode="clip")
-    again = best_splits(*search, unsplit, sub_tree[todo], ~mask[todo], parent[todo])
+    again = best_splits(*search, _items_of(sub_items, ~splits.found), sub_tree[todo], ~mask[todo], parent[todo])
     splits.update(todo[again.found], again, again.found)
     return splits
+
+
+def _items_of(items: Items, keep: NDArray[np.bool_]) -> Items:
+    """The items of the nodes where ``keep`` is True, those nodes numbered among themselves in order."""
+    subset = items.take(np.flatnonzero(np.take(keep, items.node, mode="clip")))
+    subset.node = np.take(np.cumsum(keep) - 1, subset.node, mode="clip")
+    return subset
 
 
 def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.bool_]:

@@ -114,12 +114,6 @@ class _Segments:
         """Candidate of the given elements (segments are never empty)."""
         return np.searchsorted(self.start, element, side="right") - 1
 
-    def values(self, element: NDArray[np.intp]) -> NDArray[np.float64]:
-        """Feature values of the given elements."""
-        if self.x is not None:
-            return self.x[element]
-        return self.data.X[self.rows_of(element), self.cand_feat[self.candidate(element)]]
-
     def rows_of(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
         """Training rows of the given elements."""
         return self.items.row[self.item[element]] if self.row is None else self.row[element]
