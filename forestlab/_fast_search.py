@@ -54,10 +54,15 @@ class FastPath:
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, out,
                     tie: float, work: Workspace | None):
         """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
-        column = np.take(self.columns[0], items.wi, mode="clip")
+        if seg.item is None:  # the elements' statistics indices are known: gather from the batch's column
+            elem = np.take(self.columns[0], seg.wi, out=scratch(work, "elem", seg.wi.size, self.columns[0].dtype),
+                           mode="clip")
+        else:  # by item, from the level's items' values
+            column = np.take(self.columns[0], items.wi, mode="clip")
+            elem = np.take(column, seg.item, out=scratch(work, "elem", seg.item.size, column.dtype), mode="clip")
         if self.kind == "binary":
-            return binary_best_splits(seg, splitter, min_leaf, lightest, column, parent, out, tie, work)
-        return squared_error_best_splits(seg, min_leaf, lightest, column, parent, out, tie, work)
+            return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)
+        return squared_error_best_splits(seg, min_leaf, lightest, elem, parent, out, tie, work)
 
     def sides(self, items, K: int) -> NDArray[np.float64]:
         """What :meth:`summaries` reads from the parents' cuts, summed over the items instead (K, 3): the
@@ -145,17 +150,16 @@ def _unpack(v, work: Workspace | None, names: tuple[str, str]):
     return w, c
 
 
-def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, parent, out, tie: float,
+def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, parent, out, tie: float,
                        work: Workspace | None = None):
     """Fill ``out`` (a ``Splits``) with the best split of every node of the sorted segments ``seg``;
-    ``packed`` holds the packed statistics of the level's items."""
-    L = seg.item.size
-    elem = np.take(packed, seg.item, out=scratch(work, "elem", L, np.int64), mode="clip")
+    ``elem`` holds the packed statistics of its elements (overwritten)."""
+    L = elem.size
     left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
     right = segment_totals(seg, total, work)
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
-    _exclude_light(seg, wl, wr, min_leaf, lightest)
+    light = _light_cuts(seg, wl, wr, min_leaf, lightest)
     # read now: the left sums' buffer is reused below
     heavier_left = np.greater_equal(wl, wr, out=scratch(work, "heavier_left", L, np.bool_))
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -166,13 +170,13 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
             wr, cr = _unpack(right, work, ("wr", "cr"))
             np.negative(_weighted_entropy(wl, cl, score, tmp), out=score)
             score -= _weighted_entropy(wr, cr, scratch(work, "imp", L, np.float64), tmp)
-            nodes, pick, decrease = _pick(seg, parent, parent, tie, score)
+            nodes, pick, decrease = _pick(seg, parent, parent, tie, score, light, work)
         else:  # half the Gini decrease less the node's constant; the left sums are spent once divided
             _half_gini_score(wl, cl, score)
             score += _half_gini_score(wr, cr, left.view(np.float64))
             node_w, node_c1 = _halves(total[seg.node_first])
             base = _per_node(seg, parent, -np.square(node_c1, dtype=np.float64) / node_w)
-            nodes, pick, decrease = _pick(seg, 0.5 * parent, base, tie, score)
+            nodes, pick, decrease = _pick(seg, 0.5 * parent, base, tie, score, light, work)
             decrease *= 2.0
     cand = seg.candidate(pick)
     right_at = right[pick]
@@ -181,25 +185,24 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, packed, 
     return record_cuts(seg, out, nodes, pick, decrease, heavier_left[pick], cand)
 
 
-def _exclude_light(seg, wl, wr, min_leaf: float, lightest: float) -> None:
-    """Mark in ``seg.no_cut`` the cuts that leave less than ``min_leaf`` on a side (none can when every item
-    weighs more).
+def _light_cuts(seg, wl, wr, min_leaf: float, lightest: float):
+    """The cuts that leave less than ``min_leaf`` on a side: None (none can: every item weighs more), their
+    elements, or a mask over all elements.
 
     Every item weighs at least ``lightest``, so only the first ``r = ceil(min_leaf / lightest)`` elements of a
     segment can have a light left side and only its last ``r + 1`` a light right side. Where segments are
     long, only those are checked.
     """
     if min_leaf <= lightest:
-        return
+        return None
     reach = int(np.ceil(min_leaf / lightest))
     L, C = wl.size, seg.start.size
     if 4 * C * (2 * reach + 1) >= L:
-        seg.no_cut |= np.minimum(wl, wr) < min_leaf
-        return
+        return np.minimum(wl, wr) < min_leaf
     lead = seg.start[:, None] + np.arange(reach)
     trail = (seg.start + seg.size - 1)[:, None] - np.arange(reach + 1)
     ends = np.concatenate([lead[lead < (seg.start + seg.size)[:, None]], trail[trail >= seg.start[:, None]]])
-    seg.no_cut[ends] |= np.minimum(wl[ends], wr[ends]) < min_leaf
+    return ends[np.minimum(wl[ends], wr[ends]) < min_leaf]
 
 
 def segment_totals(seg, total: NDArray, work: Workspace | None = None) -> NDArray:
@@ -207,7 +210,7 @@ def segment_totals(seg, total: NDArray, work: Workspace | None = None) -> NDArra
     more (``np.repeat`` copies runs: 0.6-1.2 ns an element at 16-32 against 4 ns at 2 on the Intel test
     machine), else one gather by candidate (about 1.2-1.6 ns an element with the shift that forms the
     candidates; into a scratch buffer of ``work``)."""
-    L = seg.item.size
+    L = seg.code.size
     if total.size * 12 <= L:
         return np.repeat(total, seg.size)
     out = scratch(work, "segment_totals", L, total.dtype)
@@ -226,22 +229,21 @@ def _half_gini_score(W, c1, out):
     return out
 
 
-def squared_error_best_splits(seg, min_leaf: float, lightest: float, packed, parent, out, tie: float,
+def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, parent, out, tie: float,
                               work: Workspace | None):
     """As :func:`binary_best_splits` for the squared-error splitter, from the case weight ``W`` and the
-    weighted centred target ``S`` of the level's items, packed as ``W + 1j * S``.
+    weighted centred target ``S`` of the elements, packed as ``W + 1j * S`` (``elem``, overwritten).
 
     The decrease of the within-node sum of squares of a cut is ``S_l**2 / W_l + S_r**2 / W_r - S**2 / W``
     (Breiman et al. 1984, section 8.3), the squared-error splitter's score up to rounding, so only the
     running sums of ``W`` (integers without case weights: exact) and ``S`` are needed.
     """
-    L = seg.item.size
-    elem = np.take(packed, seg.item, out=scratch(work, "elem_ws", L, np.complex128), mode="clip")
+    L = elem.size
     left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
     right = segment_totals(seg, total, work)
     right -= left
     left_w, left_s, right_w, right_s = left.real, left.imag, right.real, right.imag
-    _exclude_light(seg, left_w, right_w, min_leaf, lightest)
+    light = _light_cuts(seg, left_w, right_w, min_leaf, lightest)
     with np.errstate(divide="ignore", invalid="ignore"):
         score = np.multiply(left_s, left_s, out=scratch(work, "score", L, np.float64))
         score /= left_w
@@ -250,7 +252,7 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, packed, par
         score += tmp
     first = total[seg.node_first]  # the decrease is score - S**2 / W of the node
     base = _per_node(seg, parent, -first.imag ** 2 / first.real)
-    nodes, pick, decrease = _pick(seg, parent, base, tie, score)
+    nodes, pick, decrease = _pick(seg, parent, base, tie, score, light, work)
     none = np.zeros(pick.size)
     cand = seg.candidate(pick)
     lw, rw = left[pick].real, right_w[pick]
@@ -266,25 +268,31 @@ def _per_node(seg, parent, values):
     return out
 
 
-def _pick(seg, parent, base, tie, score):
-    """Mask the boundaries that are no valid cut (``seg.no_cut``, segment ends), then find the first
-    best-scoring cut of every node: returns the nodes that have one, the cut elements and their decreases.
+def _pick(seg, parent, base, tie, score, light, work: Workspace | None):
+    """Mask the boundaries that are no valid cut (``seg.no_cut``, segment ends, the ``light`` cuts of
+    :func:`_light_cuts`), then find the first best-scoring cut of every node: returns the nodes that have
+    one, the cut elements and their decreases.
 
     A cut's decrease is ``base[node] + score``; ties are judged on the decrease, at the scale of the larger
     of the best decrease and the parent's ``W i(t)``. A node's elements are contiguous (its candidates in
     order, each sorted by value), so its first cut reaching the bar is the first hit at or after its first
     element. Segments are never empty (every candidate belongs to a node that has items).
     """
-    invalid = seg.no_cut
-    invalid[seg.start[1:] - 1] = True
-    np.putmask(score, invalid, -np.inf)
+    for invalid in (seg.no_cut, light):
+        if invalid is not None and invalid.dtype == np.bool_:
+            np.putmask(score, invalid, -np.inf)
+        elif invalid is not None:
+            score[invalid] = -np.inf
+    score[seg.start[1:] - 1] = -np.inf
+    score[-1] = -np.inf
     nodes = seg.cand_node[seg.node_first]
     node_start = seg.start[seg.node_first]
     best = np.maximum.reduceat(score, node_start)
     found = best > -np.inf
     with np.errstate(invalid="ignore"):
         bar = np.where(found, best - tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes])), np.inf)
-    reached = np.greater_equal(score, np.repeat(bar, np.diff(np.append(node_start, score.size))), out=invalid)
+    reached = np.greater_equal(score, np.repeat(bar, np.diff(np.append(node_start, score.size))),
+                               out=scratch(work, "reached", score.size, np.bool_))
     hit = np.flatnonzero(reached)
     pick = hit[np.searchsorted(hit, node_start[found])]
     nodes = nodes[found]

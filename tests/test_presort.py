@@ -41,3 +41,31 @@ def test_presort_ranks_every_column_of_a_strided_matrix():
     for j in range(X.shape[1]):
         np.testing.assert_array_equal(data.dense[j], brute_dense_ranks(X[:, j]))
     assert data.dense_bits == int(data.dense.max()).bit_length()
+
+
+@given(st.lists(st.lists(st.sampled_from([0.0, 1.5, -2.0, 7.0, 3.25, -0.5]), min_size=3, max_size=3),
+                min_size=1, max_size=40))
+def test_rows_in_value_order_ties_in_row_order(rows):
+    """``order[j]`` against a brute-force ordering written here (sort the rows by value, ties by row index),
+    and ``tie_free`` against its definition (no two cases share a value)."""
+    from forestlab._presort import presort
+
+    X = np.array(rows, dtype=float)
+    n, p = X.shape
+    data = presort(X, np.zeros(n), np.zeros((n, 1)), 0)
+    for j in range(p):
+        expected = sorted(range(n), key=lambda i: (X[i, j], i))
+        np.testing.assert_array_equal(data.order[j], expected)
+        assert data.tie_free[j] == (np.unique(X[:, j]).size == n)
+
+
+def test_no_table_of_rows_where_it_would_not_pay():
+    """The table of rows in value order is formed only without missing values and while it is small."""
+    from forestlab._presort import ORDER_TABLE_BYTES, presort
+
+    X = np.arange(12.0).reshape(4, 3)
+    assert presort(X, np.zeros(4), np.zeros((4, 1)), 0).order is not None
+    X[1, 1] = np.nan
+    assert presort(X, np.zeros(4), np.zeros((4, 1)), 0).order is None
+    n = ORDER_TABLE_BYTES // 4 + 1  # one column whose table would take more than the limit
+    assert presort(np.zeros((n, 1)), np.zeros(n), np.zeros((n, 1)), 0).order is None

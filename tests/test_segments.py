@@ -33,11 +33,16 @@ def level(n, p, nodes, seed, rounding=None):
     return forest._data, items, mask, X
 
 
-@pytest.mark.parametrize("n, p, nodes, rounding", [(70_000, 4, 1, None), (70_000, 4, 37, 1), (300, 6, 9, 0)])
-def test_segments_are_each_node_sorted_by_value_ties_in_item_order(n, p, nodes, rounding):
+@pytest.mark.parametrize("n, p, nodes, rounding, by_position", [
+    (70_000, 4, 1, None, False), (70_000, 4, 37, 1, False), (300, 6, 9, 0, False), (300, 6, 9, 0, True),
+    (3_000, 5, 12, None, True), (3_000, 5, 12, None, False)])
+def test_segments_are_each_node_sorted_by_value_ties_in_item_order(n, p, nodes, rounding, by_position):
+    """Both the 64-bit keys and (where every candidate feature is tie-free and the table of rows in
+    value order exists) the 32-bit codes read back through that table."""
     data, items, mask, X = level(n, p, nodes, seed=n + nodes, rounding=rounding)
     cand = np.flatnonzero(mask)
-    seg = _sorted_segments(data, items, np.zeros(nodes, dtype=np.int64), mask, cand)
+    seg = _sorted_segments(data, items, np.zeros(nodes, dtype=np.int64), mask, cand, by_position=by_position)
+    assert (seg.item is None) == (by_position and rounding is None)  # which path ran
     expected, no_cut = [], []
     for c in cand:  # reference: per candidate, lexsort by (value, item)
         k, j = divmod(c, p)
@@ -46,12 +51,22 @@ def test_segments_are_each_node_sorted_by_value_ties_in_item_order(n, p, nodes, 
         ordered = mine[np.lexsort((mine, values))]
         expected.append(ordered)
         no_cut.append(np.append(X[items.row[ordered[1:]], j] == X[items.row[ordered[:-1]], j], True))
-    np.testing.assert_array_equal(seg.item, np.concatenate(expected))
+    expected = np.concatenate(expected)
+    if seg.item is None:
+        np.testing.assert_array_equal(seg.row, items.row[expected])
+        np.testing.assert_array_equal(seg.wi, items.wi[expected])
+    else:
+        np.testing.assert_array_equal(seg.item, expected)
     ref_no_cut = np.concatenate(no_cut)
     ref_no_cut[-1] = True
-    inner = np.ones(seg.item.size, dtype=bool)
+    inner = np.ones(expected.size, dtype=bool)
     inner[seg.start[1:] - 1] = False  # the last element of each segment is decided by the search
-    np.testing.assert_array_equal(seg.no_cut[inner], ref_no_cut[inner])
+    inner[-1] = False
+    if seg.no_cut is None:  # tie-free candidates: no equal neighbours within a segment
+        assert rounding is None and not ref_no_cut[inner].any()
+    else:
+        np.testing.assert_array_equal(seg.no_cut[inner], ref_no_cut[inner])
+    np.testing.assert_array_equal(seg.cand_of, np.repeat(np.arange(cand.size), seg.size))
 
 
 @settings(max_examples=60, deadline=None)
@@ -63,7 +78,7 @@ def test_light_cuts_match_their_definition(sizes, lightest, min_leaf, seed):
     definition applied to every element, with running sums written here."""
     from types import SimpleNamespace
 
-    from forestlab._fast_search import _exclude_light
+    from forestlab._fast_search import _light_cuts
 
     rng = np.random.default_rng(seed)
     size = np.array(sizes)
@@ -71,6 +86,9 @@ def test_light_cuts_match_their_definition(sizes, lightest, min_leaf, seed):
     w = lightest * rng.choice([1.0, 1.0, 2.0, 3.0], size=size.sum())
     left = np.concatenate([np.cumsum(w[a:a + k]) for a, k in zip(start, size)])
     right = np.repeat(np.add.reduceat(w, start), size) - left
-    seg = SimpleNamespace(start=start, size=size, no_cut=np.zeros(w.size, dtype=bool))
-    _exclude_light(seg, left, right, min_leaf, lightest)
-    np.testing.assert_array_equal(seg.no_cut, np.minimum(left, right) < min_leaf)
+    seg = SimpleNamespace(start=start, size=size)
+    light = _light_cuts(seg, left, right, min_leaf, lightest)
+    found = np.zeros(w.size, dtype=bool)
+    if light is not None:
+        found[light] = True  # a mask over all elements, or the elements themselves
+    np.testing.assert_array_equal(found, np.minimum(left, right) < min_leaf)
