@@ -156,7 +156,8 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
     ``elem`` holds the packed statistics of its elements (overwritten)."""
     L = elem.size
     left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
-    right = segment_totals(seg, total, work)
+    # the codes are spent (a gather by candidate reads the candidates from them first): reuse their buffer
+    right = segment_totals(seg, total, work, seg.code if seg.code.dtype == np.int64 else None)
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
     light = _light_cuts(seg, wl, wr, min_leaf, lightest)
@@ -205,16 +206,32 @@ def _light_cuts(seg, wl, wr, min_leaf: float, lightest: float):
     return ends[np.minimum(wl[ends], wr[ends]) < min_leaf]
 
 
-def segment_totals(seg, total: NDArray, work: Workspace | None = None) -> NDArray:
-    """Every element's segment total: ``total`` repeated over the segments where they average 12 elements or
-    more (``np.repeat`` copies runs: 0.6-1.2 ns an element at 16-32 against 4 ns at 2 on the Intel test
-    machine), else one gather by candidate (about 1.2-1.6 ns an element with the shift that forms the
-    candidates; into a scratch buffer of ``work``)."""
+def segment_totals(seg, total: NDArray, work: Workspace | None = None, out: NDArray | None = None) -> NDArray:
+    """Every element's segment total, in ``out`` if given (a buffer it may be written to), else in a scratch
+    buffer of ``work`` or a new array.
+
+    Where segments average 12 elements or more, ``total`` is repeated over them (``np.repeat`` copies runs:
+    0.6-1.2 ns an element at 16-32 against 4 ns at 2 on the Intel test machine); on large levels a few
+    ten thousand elements at a time into the buffer, so that no level-sized temporary is made. Else one
+    gather by candidate (about 1.2-1.6 ns an element with the shift that forms the candidates).
+    """
     L = seg.code.size
-    if total.size * 12 <= L:
+    repeat = total.size * 12 <= L
+    if repeat and L <= 4 * _REPEAT_RUN:
         return np.repeat(total, seg.size)
-    out = scratch(work, "segment_totals", L, total.dtype)
-    return np.take(total, seg.cand_of, out=out, mode="clip")
+    out = scratch(work, "segment_totals", L, total.dtype) if out is None else out
+    if not repeat:
+        return np.take(total, seg.cand_of, out=out, mode="clip")
+    ends = seg.start + seg.size
+    cuts = np.searchsorted(ends, np.arange(_REPEAT_RUN, L, _REPEAT_RUN), side="right")
+    for lo, hi in zip([0, *cuts.tolist()], [*cuts.tolist(), total.size]):
+        if hi > lo:
+            out[seg.start[lo]:ends[hi - 1]] = np.repeat(total[lo:hi], seg.size[lo:hi])
+    return out
+
+
+#: Elements filled per ``np.repeat`` call of :func:`segment_totals` (a few hundred KiB, cache-sized)
+_REPEAT_RUN = 1 << 15
 
 
 def _half_gini_score(W, c1, out):
@@ -291,8 +308,8 @@ def _pick(seg, parent, base, tie, score, light, work: Workspace | None):
     found = best > -np.inf
     with np.errstate(invalid="ignore"):
         bar = np.where(found, best - tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes])), np.inf)
-    reached = np.greater_equal(score, np.repeat(bar, np.diff(np.append(node_start, score.size))),
-                               out=scratch(work, "reached", score.size, np.bool_))
+    spent = seg.no_cut if seg.no_cut is not None else scratch(work, "no_cut", score.size, np.bool_)
+    reached = np.greater_equal(score, np.repeat(bar, np.diff(np.append(node_start, score.size))), out=spent)
     hit = np.flatnonzero(reached)
     pick = hit[np.searchsorted(hit, node_start[found])]
     nodes = nodes[found]

@@ -92,3 +92,22 @@ def test_light_cuts_match_their_definition(sizes, lightest, min_leaf, seed):
     if light is not None:
         found[light] = True  # a mask over all elements, or the elements themselves
     np.testing.assert_array_equal(found, np.minimum(left, right) < min_leaf)
+
+
+@pytest.mark.parametrize("segments, mean_size", [(3, 90_000), (2_000, 100), (40_000, 5), (50, 30), (9, 1)])
+def test_segment_totals_spread_every_total_over_its_segment(segments, mean_size):
+    """Against ``np.repeat`` (the definition): every branch (plain repeat on small levels, repeat a few
+    ten thousand elements at a time into a buffer on large ones, gather by candidate for short segments)."""
+    from types import SimpleNamespace
+
+    from forestlab._fast_search import segment_totals
+
+    rng = np.random.default_rng(segments)
+    size = rng.integers(1, 2 * mean_size, segments)
+    size[rng.integers(0, segments)] = 2 * mean_size + 70_000 if segments > 3 else size[0]  # one long segment
+    start = np.cumsum(size) - size
+    total = rng.integers(-2**40, 2**40, segments)
+    seg = SimpleNamespace(start=start, size=size, code=np.empty(size.sum(), dtype=np.int64),
+                          cand_of=np.repeat(np.arange(segments), size))
+    for out in (None, np.full(size.sum(), 7, dtype=np.int64)):
+        np.testing.assert_array_equal(segment_totals(seg, total, None, out), np.repeat(total, size))
