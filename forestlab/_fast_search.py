@@ -306,8 +306,8 @@ def _pick(seg, parent, base, tie, score, light, work: Workspace | None):
     node_start = seg.start[seg.node_first]
     best = np.maximum.reduceat(score, node_start)
     found = best > -np.inf
-    with np.errstate(invalid="ignore"):
-        bar = np.where(found, best - tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes])), np.inf)
+    bar = np.full(best.size, np.inf)  # (-inf arithmetic where nothing is found, but no inf - inf)
+    np.subtract(best, tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes])), out=bar, where=found)
     spent = seg.no_cut if seg.no_cut is not None else scratch(work, "no_cut", score.size, np.bool_)
     reached = np.greater_equal(score, np.repeat(bar, np.diff(np.append(node_start, score.size))), out=spent)
     hit = np.flatnonzero(reached)

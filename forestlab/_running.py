@@ -20,7 +20,7 @@ def running_sums(values: NDArray, start: NDArray[np.int64], cand_tree: NDArray[n
     """
     totals = np.add.reduceat(values, start, axis=-1)
     out = np.empty_like(values) if out is None else out
-    if values.dtype.kind in "iu":
+    if values.dtype.kind in "iu" or cand_tree[0] == cand_tree[-1]:  # exact, or one tree: one cumsum
         values[..., start[1:]] -= totals[..., :-1]
         return np.cumsum(values, axis=-1, out=out), totals
     tree_first = np.ones(start.size, dtype=bool)

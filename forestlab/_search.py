@@ -325,7 +325,7 @@ def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Wor
     if items.wi is items.row:  # one tree: a row is its own statistics index
         wi = row
     else:  # slot * n + row: the elements of a tree are contiguous, the trees in slot order
-        tree_start = np.flatnonzero(np.r_[True, cand_tree[1:] != cand_tree[:-1]])
+        tree_start = _run_starts(cand_tree)
         wi = np.repeat(cand_tree[tree_start] * n, np.add.reduceat(size, tree_start))
         wi += row
     return _Segments(*parts, None, code, None, items, data, bits, wi=wi, row=row)
@@ -412,9 +412,17 @@ def _decrease(splitter, left, right, parent):
     return parent - left[0] * checked_impurity(splitter, left.T) - right[0] * checked_impurity(splitter, right.T)
 
 
+def _run_starts(values: NDArray) -> NDArray[np.intp]:
+    """Where each run of equal neighbours of a non-empty array starts."""
+    change = np.empty(values.size, dtype=bool)
+    change[0] = True
+    np.not_equal(values[1:], values[:-1], out=change[1:])
+    return np.flatnonzero(change)
+
+
 def _argmax_per_node(node, score, parent):
     """First cut per node whose score is within the tie tolerance of the node's best."""
-    starts = np.flatnonzero(np.r_[True, node[1:] != node[:-1]])
+    starts = _run_starts(node)
     nodes = node[starts]
     best = np.maximum.reduceat(score, starts)
     scale = np.maximum(np.abs(best), np.abs(parent[nodes]))
