@@ -167,11 +167,19 @@ def _worker_context() -> multiprocessing.context.BaseContext:
 
 # ------------------------------------------------------------------------------------------- planning
 def plan_blocks(ids: Sequence[int], batch: int, parallelism: int = 1) -> list[list[int]]:
-    """Cut ``ids`` into consecutive blocks of at most ``batch`` trees, at least ``BLOCKS_PER_WORKER`` per worker."""
+    """Cut ``ids`` into consecutive blocks of at most ``batch`` trees, at least ``BLOCKS_PER_WORKER`` per worker.
+
+    In one process, a last block shorter than a quarter of ``batch`` is spread over the others instead (each
+    then holds at most ``batch + batch // 4`` trees): a level costs about the same fixed time however few
+    trees it grows, so a small last batch costs nearly as much as a full one.
+    """
     ids = list(ids)
     size = batch
     if parallelism > 1:
         size = max(1, min(batch, -(-len(ids) // (BLOCKS_PER_WORKER * parallelism))))
+    elif len(ids) > batch and len(ids) % batch and len(ids) % batch < batch / 4:
+        count = len(ids) // batch
+        size = -(-len(ids) // count)
     return [ids[i:i + size] for i in range(0, len(ids), size)]
 
 

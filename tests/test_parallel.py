@@ -142,9 +142,15 @@ class TestPlanBlocks:
         for batch, par in [(64, 1), (64, 2), (1, 2), (7, 3), (500, 4)]:
             blocks = _parallel.plan_blocks(ids, batch, par)
             assert [b for block in blocks for b in block] == ids
-            assert max(map(len, blocks)) <= batch
+            assert max(map(len, blocks)) <= (batch if par > 1 else batch + batch // 4)
             if par > 1 and batch >= 25:
                 assert len(blocks) >= _parallel.BLOCKS_PER_WORKER * par
+
+    def test_a_short_last_block_is_spread_over_the_others_in_one_process(self):
+        """200 trees in batches of 64 would leave a block of 8; three blocks of 67, 67 and 66 instead."""
+        assert [len(b) for b in _parallel.plan_blocks(range(200), 64)] == [67, 67, 66]
+        assert [len(b) for b in _parallel.plan_blocks(range(100), 64)] == [64, 36]
+        assert [len(b) for b in _parallel.plan_blocks(range(40), 64)] == [40]
 
     def test_start_method_is_not_fork(self):
         assert _parallel.start_method() in ("forkserver", "spawn")

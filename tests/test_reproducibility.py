@@ -150,7 +150,7 @@ class TestBatching:
         ("classification", None), ("regression", None), ("classification", fl.TreeSubspace(2)),
         ("regression", fl.AllFeatures()),
     ])
-    def test_batch_sizes_1_3_64_give_the_same_forest(self, monkeypatch, task, sampler):
+    def test_batch_sizes_1_3_40_64_give_the_same_forest(self, monkeypatch, task, sampler):
         X, y = small_problem(task, n=50)
         batches = []
         original = parallel_module.grow_batch
@@ -162,13 +162,15 @@ class TestBatching:
         monkeypatch.setattr(parallel_module, "grow_batch", spy)
         monkeypatch.setattr(forest_module, "BATCH_ITEMS", 10**9)
         forests = {}
-        for size in (1, 3, 64):
+        # 70 = 64 + 6: a last block under a quarter batch is spread over the others (plan_blocks)
+        expected = {1: [1] * 70, 3: [3] * 23 + [1], 40: [40, 30], 64: [70]}
+        for size in (1, 3, 40, 64):
             monkeypatch.setattr(forest_module, "MAX_BATCH", size)
             batches.clear()
             forests[size] = fl.Forest(trees=70, sampler=sampler, rng=17).fit(X, y)
-            assert batches == [size] * (70 // size) + ([70 % size] if 70 % size else [])
-        assert_same_forest(forests[1], forests[3])
-        assert_same_forest(forests[1], forests[64])
+            assert batches == expected[size]
+        for size in (3, 40, 64):
+            assert_same_forest(forests[1], forests[size])
 
 
 class TestInbag:
