@@ -161,8 +161,6 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
     light = _light_cuts(seg, wl, wr, min_leaf, lightest)
-    # read now: the left sums' buffer is reused below
-    heavier_left = np.greater_equal(wl, wr, out=scratch(work, "heavier_left", L, np.bool_))
     with np.errstate(divide="ignore", invalid="ignore"):
         score = scratch(work, "score", L, np.float64)
         if type(splitter) is EntropySplitter:  # minus the children's W i: the decrease less W_t i(t)
@@ -181,9 +179,9 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
             decrease *= 2.0
     cand = seg.candidate(pick)
     right_at = right[pick]
-    (wr, cr), (wl, cl) = _halves(right_at), _halves(total[cand] - right_at)
+    (wr, cr), (wl, cl) = _halves(right_at), _halves(total[cand] - right_at)  # exact: the left sums are spent
     record_sides(seg, out, nodes, pick, cand, (wl, cl), (wr, cr))
-    return record_cuts(seg, out, nodes, pick, decrease, heavier_left[pick], cand)
+    return record_cuts(seg, out, nodes, pick, decrease, wl >= wr, cand)
 
 
 def _light_cuts(seg, wl, wr, min_leaf: float, lightest: float):
