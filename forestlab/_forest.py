@@ -424,11 +424,11 @@ class Forest:
         Class indices into :attr:`classes` (int64) for classification, values (float64) for regression.
         """
         X = self._check_predict_X(X)
-        out = np.empty((len(self._trees), X.shape[0]))
+        out = np.empty((len(self._trees), X.shape[0]), dtype=np.int64 if self.task == "classification" else None)
         missing = bool(np.isnan(X).any())
-        for b, tree in enumerate(self._trees):
-            out[b] = tree.value[leaf_index(tree, X, missing)]
-        return out.astype(np.int64) if self.task == "classification" else out
+        for b, tree in enumerate(self._trees):  # class indices are whole numbers: exact in either type
+            out[b] = np.take(tree.value, leaf_index(tree, X, missing), mode="clip")
+        return out
 
     def votes(self, X: ArrayLike) -> NDArray[np.float64]:
         """Share of trees voting for each class, shape ``(n, K)`` in the order of :attr:`classes`."""
