@@ -309,11 +309,8 @@ def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Wor
     n, bits = data.rows, _position_bits(data)
     N, m = items.row.size, int(ncand[0])
     L = m * N
-    index = scratch(work, "key", L, np.int64)
-    slots = index.reshape(m, N)
-    np.take(cand_feat.reshape(-1, m).T * n, items.node, axis=1, out=slots, mode="clip")
-    slots += items.row
-    code = np.take(data.dense.ravel(), index, out=scratch(work, "code32", L, np.int32), mode="clip").view(np.uint32)
+    index, ranks = _slot_ranks(data, items, cand_feat, m, work)
+    index, code = index.ravel(), ranks.ravel().view(np.uint32)
     high = ((np.arange(cand_feat.size, dtype=np.uint32) << bits) + (cand_feat * n).astype(np.uint32))
     code.reshape(m, N)[:] += np.take(high.reshape(-1, m).T, items.node, axis=1,
                                      out=scratch(work, "high32", L, np.uint32).reshape(m, N), mode="clip")
@@ -342,10 +339,7 @@ def _pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_b
     m = int(ncand[0])
     if m and np.all(ncand == m):
         # slot-major (m, N): a handful of whole-array calls for all slots
-        key = scratch(work, "key", m * N, np.int64).reshape(m, N)
-        np.take(cand_feat.reshape(-1, m).T * n, items.node, axis=1, out=key, mode="clip")
-        key += items.row
-        ranks = np.take(dense, key, out=scratch(work, "rank", m * N, dense.dtype).reshape(m, N), mode="clip")
+        key, ranks = _slot_ranks(data, items, cand_feat, m, work)
         np.left_shift(ranks, item_bits, out=key, dtype=np.int64)
         base = np.take((first << db) << item_bits, items.node, out=scratch(work, "node_base", N, np.int64),
                        mode="clip")
@@ -360,6 +354,19 @@ def _pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_b
     pair_cand = first[items.node][pair_item] + offsets
     code = (pair_cand << db) | dense[cand_feat[pair_cand] * n + items.row[pair_item]]
     return (code << item_bits) | pair_item if item_bits else code, pair_item
+
+
+def _slot_ranks(data: TrainingData, items: Items, cand_feat, m: int, work: Workspace | None):
+    """Slot-major (m, N) dense ranks of every (item, candidate of its node) pair, every node having ``m``
+    candidates, and the (m, N) int64 buffer of their indices into ``data.dense`` (``feature * n + row``; the
+    caller may reuse it). Both are views of scratch buffers (``key`` and ``rank``)."""
+    N = items.row.size
+    index = scratch(work, "key", m * N, np.int64).reshape(m, N)
+    np.take(cand_feat.reshape(-1, m).T * data.rows, items.node, axis=1, out=index, mode="clip")
+    index += items.row
+    ranks = np.take(data.dense.ravel(), index, out=scratch(work, "rank", m * N, data.dense.dtype).reshape(m, N),
+                    mode="clip")
+    return index, ranks
 
 
 def _missing_totals(seg: _Segments, elem: NDArray[np.float64]) -> NDArray[np.float64] | None:
