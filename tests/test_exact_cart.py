@@ -136,7 +136,41 @@ def problems(draw):
 @settings(max_examples=250)
 @given(problems())
 def test_tree_equals_brute_force_cart(problem):
-    X, y, kind, min_leaf, replace, depth_limit, seed = problem
+    assert_tree_is_brute_force_cart(*problem)
+
+
+@st.composite
+def tie_free_two_class_problems(draw):
+    """Two classes, every value of a feature distinct, ``min_leaf`` 1: the fast search then scores only the
+    cuts between cases of different classes (a published result it relies on, checked here against the
+    brute force that scores every cut)."""
+    n = draw(st.integers(2, 40))
+    p = draw(st.integers(1, 4))
+    X = np.array([draw(st.permutations(range(n))) for _ in range(p)], dtype=float).T * 0.37
+    y = np.array(draw(st.lists(st.integers(0, 1), min_size=n, max_size=n)))
+    kind = draw(st.sampled_from(["gini", "entropy"]))
+    return X, y, kind, 1, draw(st.booleans()), draw(st.sampled_from([None, None, 2])), draw(st.integers(0, 2**16))
+
+
+@settings(max_examples=200)
+@given(tie_free_two_class_problems())
+def test_tie_free_two_class_tree_equals_brute_force_cart(problem):
+    assert_tree_is_brute_force_cart(*problem)
+
+
+def test_tie_free_two_class_search_scores_class_changes_only(monkeypatch):
+    """The problems above take the path that scores class changes only (so their check is not vacuous)."""
+    from forestlab import _fast_search
+    calls = []
+    original = _fast_search._class_changes
+    monkeypatch.setattr(_fast_search, "_class_changes", lambda *a: calls.append(1) or original(*a))
+    X = np.random.default_rng(3).permutation(60).reshape(30, 2) * 0.37
+    y = (X[:, 0] + X[:, 1] > 20).astype(int)
+    fl.Forest(trees=1, sampler=fl.AllFeatures(), rng=0).fit(X, y)
+    assert calls
+
+
+def assert_tree_is_brute_force_cart(X, y, kind, min_leaf, replace, depth_limit, seed):
     forest = fl.Forest(trees=1, sampler=fl.AllFeatures(), splitter=kind, min_leaf=min_leaf,
                        sample_size=len(y), replace=replace, depth_limit=depth_limit, rng=seed)
     import warnings
