@@ -111,3 +111,24 @@ def test_segment_totals_spread_every_total_over_its_segment(segments, mean_size)
                           cand_of=np.repeat(np.arange(segments), size))
     for out in (None, np.full(size.sum(), 7, dtype=np.int64)):
         np.testing.assert_array_equal(segment_totals(seg, total, None, out), np.repeat(total, size))
+
+
+def test_packed_sums_at_class_changes_equal_restarted_running_sums(monkeypatch):
+    """The two-class search's sums at the class changes, from one cumsum over the level, are the running
+    sums restarted per segment (the path large levels take): the same trees bit for bit."""
+    from forestlab import _fast_search
+    rng = np.random.default_rng(11)
+    X = rng.normal(size=(1_500, 6))
+    y = (X[:, 0] + X[:, 1] * X[:, 2] + rng.normal(scale=0.5, size=1_500) > 0).astype(int)
+
+    def grown():
+        forest = fl.Forest(trees=5, sampler=2, rng=4).fit(X, y)
+        return [forest.tree(b) for b in range(5)]
+
+    packed = grown()
+    monkeypatch.setattr(_fast_search, "_PACKED_LEVEL_LIMIT", 0)
+    restarted = grown()
+    for a, b in zip(packed, restarted):
+        np.testing.assert_array_equal(a.feature, b.feature)
+        np.testing.assert_array_equal(a.threshold, b.threshold)
+        np.testing.assert_array_equal(a.cases, b.cases)
