@@ -155,13 +155,15 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * checked_impurity(rules.splitter, totals[open_nodes])
     search = (data, rules.splitter, rules.min_leaf, batch)
-    splits = best_splits(*search, sub_items, sub_tree, mask, parent)
+    means = totals[open_nodes, 1] / weight[open_nodes] if batch.fast is not None else None
+    splits = best_splits(*search, sub_items, sub_tree, mask, parent, means)
     if rules.sampler.per_tree or splits.found.all():
         return splits
     # the nodes without a split, numbered among themselves (every one then has the same number of
     # candidates under RandomSubset, which keeps the search on its fast whole-array path)
     todo = np.flatnonzero(~splits.found)
-    again = best_splits(*search, _items_of(sub_items, ~splits.found), sub_tree[todo], ~mask[todo], parent[todo])
+    again = best_splits(*search, _items_of(sub_items, ~splits.found), sub_tree[todo], ~mask[todo], parent[todo],
+                        None if means is None else means[todo])
     splits.update(todo[again.found], again, again.found)
     return splits
 

@@ -131,14 +131,15 @@ class _Segments:
 
 
 def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, batch, items: Items, node_tree, mask,
-                parent) -> Splits:
+                parent, means=None) -> Splits:
     """Exact best split of every node over its candidate features.
 
     Ties (scores within a relative 1e-12): lowest feature, then smallest threshold, then missing cases sent
     right. ``batch`` holds the batch's statistics: ``stats`` (channel-major weighted statistics, formed when
     first read), ``lightest`` (smallest positive case weight), ``fast`` (the statistics packed for one of
     :mod:`._fast_search`'s searches, or None) and ``work`` (scratch buffers reused from level to level;
-    results never live in them). ``parent`` holds the nodes' ``W * i(t)``.
+    results never live in them). ``parent`` holds the nodes' ``W * i(t)``; ``means`` (fast searches) the
+    nodes' first summed statistic over their weight.
     """
     out = Splits.none(mask.shape[0], data.category_words)
     cand = np.flatnonzero(mask)
@@ -146,8 +147,8 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, bat
         return out
     seg = _sorted_segments(data, items, node_tree, mask, cand, batch.work, by_position=batch.fast is not None)
     if batch.fast is not None:
-        return batch.fast.best_splits(seg, splitter, min_leaf, batch.lightest, items, parent, out, TIE_TOLERANCE,
-                                      batch.work)
+        return batch.fast.best_splits(seg, splitter, min_leaf, batch.lightest, items, parent, means, out,
+                                      TIE_TOLERANCE, batch.work)
     stats, lightest = batch.stats, batch.lightest
     seg.materialise()
     order = _order_categories(data, seg, stats[0]) if data.category_words else None
