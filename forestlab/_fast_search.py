@@ -1,24 +1,25 @@
 """Fast paths of the exact best-split search for the built-in splitters (no missing values or categories).
 
-Both score every element of the sorted segments and mask the boundaries that are no valid cut, which saves
+Both score the elements of the sorted segments and mask the boundaries that are no valid cut, which saves
 the gathers at the cuts, and keep their large temporaries in the batch's scratch buffers.
 
-*Two classes* (Gini or entropy, no case weights): every summed statistic is
-an integer count, so the two channels the search needs, the bootstrap weight ``W`` and the class-1 count
-``c1``, travel packed in one int64 (``W + c1 * 2**32``): one gather, one integer ``cumsum`` (exact, so in any
-order), and ``c0 = W - c1``. Entropy is computed with the entropy splitter's own operations. Gini uses
-``W i = 2 c0 c1 / W = 2 (c1 - c1**2 / W)``, so a cut scores ``c1_l**2 / W_l + c1_r**2 / W_r`` (two
-divisions per element), half the decrease plus the node's ``c1**2 / W``; equal to the generic value up to
-rounding. Where every candidate feature is tie-free and ``min_leaf`` cannot bind, only the cuts between cases
-of different classes are scored (:func:`_class_changes`: no other cut can be best). Scores are formed relative to the node, so the chosen split can differ from the generic search's
-only between splits whose scores differ by about the tie tolerance.
+*Two classes* (Gini or entropy, no case weights): every summed statistic is an integer count, so the two
+channels the search needs, the bootstrap weight ``W`` and the class-1 count ``c1``, travel packed in one int64
+(``W + c1 * 2**32``): one gather, one integer ``cumsum`` (exact, so in any order), and ``c0 = W - c1``.
+Entropy is computed with the entropy splitter's own operations. Gini uses ``W i = 2 c0 c1 / W = 2 (c1 -
+c1**2 / W)``, so a cut scores ``c1_l**2 / W_l + c1_r**2 / W_r`` (two divisions per element), half the
+decrease plus the node's ``c1**2 / W``; equal to the generic value up to rounding. Where every candidate
+feature is tie-free and ``min_leaf`` cannot bind, only the cuts between cases of different classes are scored
+(:func:`_class_changes`: no other cut can be best). Scores are formed relative to the node, so the chosen
+split can differ from the generic search's only between splits whose scores differ by about the tie
+tolerance.
 
 *Squared error*: the running sums of the case weight and of the weighted target, centred on each node's
-mean, only (no second moment), and the decrease ``W * S_l**2 / (W_l * W_r)`` (the classic
-``S_l**2 / W_l + S_r**2 / W_r - S**2 / W`` with ``S = 0``); equal to the generic score up to rounding, and
-free of its cancellation where a node's mean lies far from the data's. The two channels travel as one complex number ``W + 1j * S``: one gather and one ``cumsum``
-serve both (a complex addition adds the parts separately, so the sums are those of each channel alone, and
-integer ``W`` stays exact as a float).
+mean, only (no second moment), and the decrease ``W * S_l**2 / (W_l * W_r)`` (the classic ``S_l**2 / W_l +
+S_r**2 / W_r - S**2 / W`` with ``S = 0``); equal to the generic score up to rounding, and free of its
+cancellation where a node's mean lies far from the data's. The two channels travel as one complex number
+``W + 1j * S``: one gather and one ``cumsum`` serve both (a complex addition adds the parts separately, so
+the sums are those of each channel alone, and integer ``W`` stays exact as a float).
 """
 
 from __future__ import annotations
