@@ -10,7 +10,7 @@ Entropy is computed with the entropy splitter's own operations. Gini uses ``W i 
 c1**2 / W)``, so a cut scores ``c1_l**2 / W_l + c1_r**2 / W_r`` (two divisions per element), half the
 decrease plus the node's ``c1**2 / W``; equal to the generic value up to rounding. Where every candidate
 feature is tie-free and ``min_leaf`` cannot bind, only the cuts between cases of different classes are scored
-(:func:`_class_changes`: no other cut can be best). Scores are formed relative to the node, so the chosen
+(:func:`_class_changes`: no other cut can be best; with ties, :func:`_class_boundaries`). Scores are formed relative to the node, so the chosen
 split can differ from the generic search's only between splits whose scores differ by about the tie
 tolerance.
 
@@ -167,10 +167,12 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
     """Fill ``out`` (a ``Splits``) with the best split of every node of the sorted segments ``seg``;
     ``elem`` holds the packed statistics of its elements (overwritten).
 
-    On a level whose candidate features are tie-free and where no cut can leave a side too light, only the
-    cuts between two cases of different classes are scored (:func:`_class_changes`).
+    Where no cut can leave a side too light, only the cuts between two cases of different classes are scored
+    (:func:`_class_changes`; with ties, :func:`_class_boundaries`).
     """
-    at = _class_changes(seg, elem, work) if seg.no_cut is None and min_leaf <= lightest else None
+    at = None
+    if min_leaf <= lightest:
+        at = _class_changes(seg, elem, work) if seg.no_cut is None else _class_boundaries(seg, elem, work)
     if at is None:  # every element: the codes are spent (a gather by candidate reads them first), so the
         # segment totals reuse their buffer
         cand_at = None
@@ -231,6 +233,27 @@ def _class_changes(seg, elem, work: Workspace | None) -> NDArray[np.intp]:
     change[-1] = False
     change[seg.start[1:] - 1] = False
     return np.flatnonzero(change)
+
+
+def _class_boundaries(seg, elem, work: Workspace | None) -> NDArray[np.intp]:
+    """:func:`_class_changes` for a level with ties: the valid cuts (between distinct values, inside a
+    segment) except those between two groups of equal values that hold one and the same class only.
+
+    Such a cut lies inside a run of one class of the sequence of value groups, where the decrease is again
+    strictly convex in the weight moved left, so it is not best (the boundary points of Fayyad & Irani 1992,
+    who treat equal values this way).
+    """
+    is_one = np.greater(elem, 0xFFFFFFFF, out=scratch(work, "is_one", elem.size, np.bool_))
+    # the last element of every group of equal values but the level's last (``no_cut`` is spent)
+    ends = np.flatnonzero(np.logical_not(seg.no_cut, out=seg.no_cut))
+    starts = np.empty(ends.size + 1, dtype=np.intp)
+    starts[0] = 0
+    starts[1:] = ends + 1
+    all_one = np.logical_and.reduceat(is_one, starts)
+    none_one = np.logical_not(np.logical_or.reduceat(is_one, starts))
+    keep = ~((all_one[:-1] & all_one[1:]) | (none_one[:-1] & none_one[1:]))
+    keep[np.searchsorted(ends, seg.start[1:] - 1)] = False  # segment ends (the codes differ there too)
+    return ends[keep]
 
 
 def _sums_at(seg, elem, at, cand_at, work: Workspace | None):

@@ -13,6 +13,7 @@ from __future__ import annotations
 from collections import deque
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -140,32 +141,39 @@ def test_tree_equals_brute_force_cart(problem):
 
 
 @st.composite
-def tie_free_two_class_problems(draw):
-    """Two classes, every value of a feature distinct, ``min_leaf`` 1: the fast search then scores only the
-    cuts between cases of different classes (a published result it relies on, checked here against the
-    brute force that scores every cut)."""
+def two_class_problems(draw):
+    """Two classes, numeric features without gaps, ``min_leaf`` 1: the fast search then scores only the cuts
+    between cases of different classes, or with equal values between value groups that are not both of one
+    and the same class (a published result it relies on, checked here against the brute force that scores
+    every cut). Features either hold distinct values or a few levels."""
     n = draw(st.integers(2, 40))
     p = draw(st.integers(1, 4))
-    X = np.array([draw(st.permutations(range(n))) for _ in range(p)], dtype=float).T * 0.37
+    if draw(st.booleans()):
+        X = np.array([draw(st.permutations(range(n))) for _ in range(p)], dtype=float).T * 0.37
+    else:
+        X = np.array(draw(st.lists(st.lists(st.integers(0, draw(st.integers(1, 6))), min_size=p, max_size=p),
+                                   min_size=n, max_size=n)), dtype=float)
     y = np.array(draw(st.lists(st.integers(0, 1), min_size=n, max_size=n)))
     kind = draw(st.sampled_from(["gini", "entropy"]))
     return X, y, kind, 1, draw(st.booleans()), draw(st.sampled_from([None, None, 2])), draw(st.integers(0, 2**16))
 
 
-@settings(max_examples=200)
-@given(tie_free_two_class_problems())
-def test_tie_free_two_class_tree_equals_brute_force_cart(problem):
+@settings(max_examples=300)
+@given(two_class_problems())
+def test_two_class_tree_equals_brute_force_cart(problem):
     assert_tree_is_brute_force_cart(*problem)
 
 
-def test_tie_free_two_class_search_scores_class_changes_only(monkeypatch):
-    """The problems above take the path that scores class changes only (so their check is not vacuous)."""
+@pytest.mark.parametrize("ties, scorer", [(False, "_class_changes"), (True, "_class_boundaries")])
+def test_two_class_search_scores_class_boundaries_only(monkeypatch, ties, scorer):
+    """The problems above take the paths that score class boundaries only (so their check is not vacuous)."""
     from forestlab import _fast_search
     calls = []
-    original = _fast_search._class_changes
-    monkeypatch.setattr(_fast_search, "_class_changes", lambda *a: calls.append(1) or original(*a))
+    original = getattr(_fast_search, scorer)
+    monkeypatch.setattr(_fast_search, scorer, lambda *a: calls.append(1) or original(*a))
     X = np.random.default_rng(3).permutation(60).reshape(30, 2) * 0.37
-    y = (X[:, 0] + X[:, 1] > 20).astype(int)
+    X = np.round(X / 4) if ties else X
+    y = (X[:, 0] + X[:, 1] > np.median(X[:, 0] + X[:, 1])).astype(int)
     fl.Forest(trees=1, sampler=fl.AllFeatures(), rng=0).fit(X, y)
     assert calls
 
