@@ -8,9 +8,9 @@ channels the search needs, the bootstrap weight ``W`` and the class-1 count ``c1
 (``W + c1 * 2**32``): one gather, one integer ``cumsum`` (exact, so in any order), and ``c0 = W - c1``.
 Entropy is computed with the entropy splitter's own operations. Gini uses ``W i = 2 c0 c1 / W = 2 (c1 -
 c1**2 / W)``, so a cut scores ``c1_l**2 / W_l + c1_r**2 / W_r`` (two divisions per element), half the
-decrease plus the node's ``c1**2 / W``; equal to the generic value up to rounding. Where every candidate
-feature is tie-free and ``min_leaf`` cannot bind, only the cuts between cases of different classes are scored
-(:func:`_class_changes`: no other cut can be best; with ties, :func:`_class_boundaries`). Scores are formed relative to the node, so the chosen
+decrease plus the node's ``c1**2 / W``; equal to the generic value up to rounding. Where ``min_leaf`` cannot
+bind, only the cuts between cases of different classes are scored (:func:`_class_changes`, with ties
+:func:`_class_boundaries`: no other cut can be best). Scores are formed relative to the node, so the chosen
 split can differ from the generic search's only between splits whose scores differ by about the tie
 tolerance.
 
@@ -59,19 +59,16 @@ class FastPath:
         """Fill ``out`` with the best split of every node of the sorted segments ``seg`` (``means``: each
         node's summed first statistic over its weight, which the squared-error search centres on)."""
         column = self.columns[0]
-        if self.kind == "squared_error":  # each item's target centred on its node's mean
+        if seg.item is not None or self.kind == "squared_error":  # the level's items' values
             column = np.take(column, items.wi, mode="clip")
+        if self.kind == "squared_error":  # each item's target centred on its node's mean
             column.imag -= column.real * np.take(means, items.node, mode="clip")
-            if seg.item is None:  # gathered by statistics index: put the items' centred values in place
+            if seg.item is None:  # gathered by statistics index below: the centred values put in place
                 placed = scratch(work, "centred", self.columns[0].size, column.dtype)
                 placed[items.wi] = column
                 column = placed
-        if seg.item is None:  # the elements' statistics indices are known: gather from the batch's column
-            elem = np.take(column, seg.wi, out=scratch(work, "elem", seg.wi.size, column.dtype), mode="clip")
-        else:  # by item, from the level's items' values
-            if column is self.columns[0]:
-                column = np.take(column, items.wi, mode="clip")
-            elem = np.take(column, seg.item, out=scratch(work, "elem", seg.item.size, column.dtype), mode="clip")
+        index = seg.wi if seg.item is None else seg.item
+        elem = np.take(column, index, out=scratch(work, "elem", index.size, column.dtype), mode="clip")
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)
         return squared_error_best_splits(seg, min_leaf, lightest, elem, parent, out, tie, work)
@@ -361,8 +358,10 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, paren
     The decrease of the within-node sum of squares of a cut is ``S_l**2 / W_l + S_r**2 / W_r - S**2 / W``
     (Breiman et al. 1984, section 8.3) for any centring of the target; centred on the node's mean, ``S`` is
     0, so ``S_r = -S_l`` and the decrease is ``W * S_l**2 / (W_l * W_r)``: no right sums, no difference of
-    large terms (so it is also more accurate where the decrease is small beside ``S**2 / W``). Equal to the
-    squared-error splitter's score up to rounding. Only the running sums of ``W`` (integers without case
+    large terms (so it is also more accurate where the decrease is small beside ``S**2 / W``). The centred
+    values of a node sum to their rounding residue rather than to 0 exactly (about ``1e-16`` of the summed
+    ``|S|``), which enters the score at that size. Equal to the squared-error splitter's score up to
+    rounding. Only the running sums of ``W`` (integers without case
     weights: exact) and ``S`` are needed.
     """
     L = elem.size

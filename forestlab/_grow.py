@@ -155,7 +155,8 @@ def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, w
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * checked_impurity(rules.splitter, totals[open_nodes])
     search = (data, rules.splitter, rules.min_leaf, batch)
-    means = totals[open_nodes, 1] / weight[open_nodes] if batch.fast is not None else None
+    centred = batch.fast is not None and batch.fast.kind == "squared_error"
+    means = totals[open_nodes, 1] / weight[open_nodes] if centred else None
     splits = best_splits(*search, sub_items, sub_tree, mask, parent, means)
     if rules.sampler.per_tree or splits.found.all():
         return splits
