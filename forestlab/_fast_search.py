@@ -181,7 +181,7 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
         right = np.take(total, cand_at, out=scratch(work, "right_at", at.size, total.dtype), mode="clip")
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
-    light = _light_cuts(seg, wl, wr, min_leaf, lightest) if at is None else None
+    light = _light_cuts(seg, wl, wr, min_leaf, lightest)  # (None where ``at`` is used: min_leaf cannot bind)
     size = left.size
     with np.errstate(divide="ignore", invalid="ignore"):
         score = scratch(work, "score", size, np.float64)
@@ -222,9 +222,7 @@ def _class_changes(seg, elem, work: Workspace | None) -> NDArray[np.intp]:
     cut would take it if it came first, this one does not.)
     """
     L = elem.size
-    # c1 > 0: the packed value reaches 2**32 (compared as int64: 0.3 against 1.2 ns an element for the
-    # strided int32 half on the Intel test machine)
-    is_one = np.greater(elem, 0xFFFFFFFF, out=scratch(work, "is_one", L, np.bool_))
+    is_one = _is_one(elem, work)
     change = scratch(work, "no_cut", L, np.bool_)
     np.not_equal(is_one[1:], is_one[:-1], out=change[:-1])
     change[-1] = False
@@ -240,7 +238,7 @@ def _class_boundaries(seg, elem, work: Workspace | None) -> NDArray[np.intp]:
     strictly convex in the weight moved left, so it is not best (the boundary points of Fayyad & Irani 1992,
     who treat equal values this way).
     """
-    is_one = np.greater(elem, 0xFFFFFFFF, out=scratch(work, "is_one", elem.size, np.bool_))
+    is_one = _is_one(elem, work)
     # the last element of every group of equal values but the level's last (``no_cut`` is spent)
     ends = np.flatnonzero(np.logical_not(seg.no_cut, out=seg.no_cut))
     starts = np.empty(ends.size + 1, dtype=np.intp)
@@ -251,6 +249,12 @@ def _class_boundaries(seg, elem, work: Workspace | None) -> NDArray[np.intp]:
     keep = ~((all_one[:-1] & all_one[1:]) | (none_one[:-1] & none_one[1:]))
     keep[np.searchsorted(ends, seg.start[1:] - 1)] = False  # segment ends (the codes differ there too)
     return ends[keep]
+
+
+def _is_one(elem, work: Workspace | None) -> NDArray[np.bool_]:
+    """Whether each packed element holds class-1 cases: ``c1 > 0``, so the value reaches ``2**32`` (compared
+    as int64: 0.3 against 1.2 ns an element for the strided int32 half on the Intel test machine)."""
+    return np.greater(elem, 0xFFFFFFFF, out=scratch(work, "is_one", elem.size, np.bool_))
 
 
 def _sums_at(seg, elem, at, cand_at, work: Workspace | None):
@@ -361,8 +365,7 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, paren
     large terms (so it is also more accurate where the decrease is small beside ``S**2 / W``). The centred
     values of a node sum to their rounding residue rather than to 0 exactly (about ``1e-16`` of the summed
     ``|S|``), which enters the score at that size. Equal to the squared-error splitter's score up to
-    rounding. Only the running sums of ``W`` (integers without case
-    weights: exact) and ``S`` are needed.
+    rounding. Only the running sums of ``W`` (integers without case weights: exact) and ``S`` are needed.
     """
     L = elem.size
     left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
