@@ -12,27 +12,31 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from . import _dependence, _importance, _proximity
-from ._bootstrap import balanced_sample_size
-from ._categorical import apply_levels, encode_columns
-from ._dependence import Dependence
-from ._fingerprint import check_same_data, data_fingerprint
-from ._grow import GrowthRules, grow_batch
-from ._importance import Importance
-from ._oob import out_of_bag
-from ._parallel import grow_trees
-from ._persist import MSG_NO_DATA, growth_blocker, save_forest
-from ._presort import presort
-from ._proximity import ProximityMap
-from ._results import OutOfBag
-from ._sampler import CandidateSampler
-from ._seeding import check_rng, root_seed, tree_seed
-from ._splitter import CartSplitter, GiniSplitter, SquaredErrorSplitter
-from ._tabular import default_names, match_columns, read_table
-from ._tree import Tree, leaf_index
-from ._validation import (Settings, Target, _int_at_least, check_settings, check_splitter_output, check_X,
+from .analyses import dependence as _dependence
+
+from .analyses import importance as _importance
+
+from .analyses import proximity as _proximity
+from .engine.bootstrap import balanced_sample_size
+from .engine.categories import apply_levels, encode_columns
+from .analyses.dependence import Dependence
+from .intake.fingerprint import check_same_data, data_fingerprint
+from .engine.grow import GrowthRules, grow_batch
+from .analyses.importance import Importance
+from .analyses.oob import out_of_bag
+from .execution.parallel import grow_trees
+from .modelfile.persist import MSG_NO_DATA, growth_blocker, save_forest
+from .engine.presort import presort
+from .analyses.proximity import ProximityMap
+from .analyses.results import OutOfBag
+from .engine.sampler import CandidateSampler
+from .engine.seeding import check_rng, root_seed, tree_seed
+from .engine.splitter import CartSplitter, GiniSplitter, SquaredErrorSplitter
+from .intake.tables import default_names, match_columns, read_table
+from .engine.tree import Tree, leaf_index
+from .intake.validation import (Settings, Target, _int_at_least, check_settings, check_splitter_output, check_X,
                           check_y, resolve_categorical)
-from ._weights import check_weights, class_weight_vector, growth_weights
+from .intake.weights import check_weights, class_weight_vector, growth_weights
 
 __all__ = ["Forest"]
 

@@ -26,9 +26,9 @@ try:
 except ImportError:  # pragma: no cover - exercised only without the extra
     raise ImportError("forestlab.plot needs matplotlib; install it with: pip install 'forestlab[plot]'") from None
 
-from ._dependence import Dependence
-from ._importance import Importance
-from ._proximity import ProximityMap
+from .analyses.dependence import Dependence
+from .analyses.importance import Importance
+from .analyses.proximity import ProximityMap
 
 __all__ = ["error_curve", "importance", "margins", "partial_dependence", "proximity_map"]
 

@@ -1,4 +1,4 @@
-"""Partial dependence and ICE curves (forestlab._dependence)."""
+"""Partial dependence and ICE curves (forestlab.analyses.dependence)."""
 
 from __future__ import annotations
 

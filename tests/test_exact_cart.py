@@ -167,7 +167,7 @@ def test_two_class_tree_equals_brute_force_cart(problem):
 @pytest.mark.parametrize("ties, scorer", [(False, "_class_changes"), (True, "_class_boundaries")])
 def test_two_class_search_scores_class_boundaries_only(monkeypatch, ties, scorer):
     """The problems above take the paths that score class boundaries only (so their check is not vacuous)."""
-    from forestlab import _fast_search
+    from forestlab.engine import fast_search as _fast_search
     calls = []
     original = getattr(_fast_search, scorer)
     monkeypatch.setattr(_fast_search, scorer, lambda *a: calls.append(1) or original(*a))

@@ -1,4 +1,4 @@
-"""Permutation and impurity importance (forestlab._importance)."""
+"""Permutation and impurity importance (forestlab.analyses.importance)."""
 
 from __future__ import annotations
 
@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 
 import forestlab as fl
-from forestlab._seeding import root_seed, tree_generator
-from forestlab._tree import leaf_index
+from forestlab.engine.seeding import root_seed, tree_generator
+from forestlab.engine.tree import leaf_index
 from forestlab.synthetic import friedman1
 
 

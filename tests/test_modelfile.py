@@ -20,7 +20,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import forestlab as fl
-from forestlab._modelfile import read_model, write_model
+from forestlab.modelfile.container import read_model, write_model
 
 NODE_ARRAYS = ("feature", "threshold", "left", "right", "value", "cases", "impurity_decrease", "depth",
                "missing_left", "category_left")
@@ -229,7 +229,7 @@ class TestAtomicWrite:
         def broken_fsync(fd):
             raise OSError("disk full (simulated)")
 
-        monkeypatch.setattr("forestlab._modelfile.os.fsync", broken_fsync)
+        monkeypatch.setattr("forestlab.modelfile.container.os.fsync", broken_fsync)
         with pytest.raises(OSError, match=r"disk full"):
             fl.Forest(trees=5, rng=1).fit(X, score).save(path)
         assert path.read_bytes() == before and sorted(os.listdir(tmp_path)) == ["model.npz"]

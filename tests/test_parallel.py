@@ -24,7 +24,8 @@ import pytest
 
 import forestlab as fl
 import forestlab._forest as forest_module
-from forestlab import _parallel, _shared
+from forestlab.execution import parallel as _parallel
+from forestlab.execution import shared as _shared
 from forestlab.synthetic import friedman1, twonorm
 
 SHM = Path("/dev/shm")
@@ -333,7 +334,7 @@ class TestFailures:
         script = textwrap.dedent("""
             import os, struct, time
             from concurrent.futures import ProcessPoolExecutor
-            from forestlab import _parallel
+            from forestlab.execution import parallel as _parallel
             if __name__ == "__main__":
                 pool = ProcessPoolExecutor(2, mp_context=_parallel._worker_context())
                 assert pool.submit(int, "7").result() == 7  # workers and manager thread are up

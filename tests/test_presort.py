@@ -12,7 +12,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 import forestlab as fl
-from forestlab._presort import dense_ranks
+from forestlab.engine.presort import dense_ranks
 
 
 def brute_dense_ranks(column):
@@ -48,7 +48,7 @@ def test_presort_ranks_every_column_of_a_strided_matrix():
 def test_rows_in_value_order_ties_in_row_order(rows):
     """``order[j]`` against a brute-force ordering written here (sort the rows by value, ties by row index),
     and ``tie_free`` against its definition (no two cases share a value)."""
-    from forestlab._presort import presort
+    from forestlab.engine.presort import presort
 
     X = np.array(rows, dtype=float)
     n, p = X.shape
@@ -61,7 +61,7 @@ def test_rows_in_value_order_ties_in_row_order(rows):
 
 def test_no_table_of_rows_where_it_would_not_pay():
     """The table of rows in value order is formed only without missing values and while it is small."""
-    from forestlab._presort import ORDER_TABLE_BYTES, presort
+    from forestlab.engine.presort import ORDER_TABLE_BYTES, presort
 
     X = np.arange(12.0).reshape(4, 3)
     assert presort(X, np.zeros(4), np.zeros((4, 1)), 0).order is not None

@@ -1,4 +1,4 @@
-"""Proximity, outlyingness and the proximity map (forestlab._proximity)."""
+"""Proximity, outlyingness and the proximity map (forestlab.analyses.proximity)."""
 
 from __future__ import annotations
 
@@ -7,8 +7,8 @@ import pytest
 import scipy.spatial.distance
 
 import forestlab as fl
-from forestlab import _proximity
-from forestlab._tree import leaf_index
+from forestlab.analyses import proximity as _proximity
+from forestlab.engine.tree import leaf_index
 
 
 @pytest.fixture(scope="module")

@@ -16,7 +16,7 @@ import pytest
 
 import forestlab as fl
 import forestlab._forest as forest_module
-import forestlab._parallel as parallel_module
+import forestlab.execution.parallel as parallel_module
 
 FIELDS = ("feature", "threshold", "left", "right", "value", "cases", "impurity_decrease", "depth")
 

@@ -11,7 +11,7 @@ import numpy as np
 from hypothesis import given
 from hypothesis import strategies as st
 
-from forestlab._running import running_sums
+from forestlab.engine.running import running_sums
 
 
 @st.composite

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 import forestlab as fl
-import forestlab._grow as grow
+import forestlab.engine.grow as grow
 
 
 @pytest.fixture
@@ -264,7 +264,7 @@ class TestTreeSubspace:
 def test_batched_draws_equal_one_draw_per_tree():
     # the engine draws the masks of all trees of a batch together; each tree's rows must be what its own
     # generator gives for one `draw` call (the numpy.random convention: a generator's stream is its own)
-    from forestlab._sampler import draw_masks
+    from forestlab.engine.sampler import draw_masks
 
     for sampler in (fl.RandomSubset(3), fl.RandomSubset(10), fl.AllFeatures(), fl.TreeSubspace(4)):
         nodes = np.array([3, 0, 5, 1])

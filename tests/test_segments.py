@@ -13,7 +13,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import forestlab as fl
-from forestlab._search import Items, _sorted_segments
+from forestlab.engine.search import Items, _sorted_segments
 
 
 def level(n, p, nodes, seed, rounding=None):
@@ -78,7 +78,7 @@ def test_light_cuts_match_their_definition(sizes, lightest, min_leaf, seed):
     definition applied to every element, with running sums written here."""
     from types import SimpleNamespace
 
-    from forestlab._fast_search import _light_cuts
+    from forestlab.engine.fast_search import _light_cuts
 
     rng = np.random.default_rng(seed)
     size = np.array(sizes)
@@ -100,7 +100,7 @@ def test_segment_totals_spread_every_total_over_its_segment(segments, mean_size)
     ten thousand elements at a time into a buffer on large ones, gather by candidate for short segments)."""
     from types import SimpleNamespace
 
-    from forestlab._fast_search import segment_totals
+    from forestlab.engine.fast_search import segment_totals
 
     rng = np.random.default_rng(segments)
     size = rng.integers(1, 2 * mean_size, segments)
@@ -116,7 +116,7 @@ def test_segment_totals_spread_every_total_over_its_segment(segments, mean_size)
 def test_packed_sums_at_class_changes_equal_restarted_running_sums(monkeypatch):
     """The two-class search's sums at the class changes, from one cumsum over the level, are the running
     sums restarted per segment (the path large levels take): the same trees bit for bit."""
-    from forestlab import _fast_search
+    from forestlab.engine import fast_search as _fast_search
     rng = np.random.default_rng(11)
     X = rng.normal(size=(1_500, 6))
     y = (X[:, 0] + X[:, 1] * X[:, 2] + rng.normal(scale=0.5, size=1_500) > 0).astype(int)

@@ -321,8 +321,9 @@ def _imbalanced(n, rng):
     return X, y
 
 
-PUBLIC_MODULES = ["forestlab._forest", "forestlab._sampler", "forestlab._splitter", "forestlab._tree",
-                  "forestlab._seeding", "forestlab._bootstrap", "forestlab.synthetic"]
+PUBLIC_MODULES = ["forestlab._forest", "forestlab.engine.sampler", "forestlab.engine.splitter",
+                  "forestlab.engine.tree", "forestlab.engine.seeding", "forestlab.engine.bootstrap",
+                  "forestlab.synthetic"]
 
 
 @pytest.mark.parametrize("name", PUBLIC_MODULES)

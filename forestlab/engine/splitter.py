@@ -24,7 +24,7 @@ from typing import ClassVar
 import numpy as np
 from numpy.typing import NDArray
 
-from ._component import Component
+from .component import Component
 
 __all__ = ["CartSplitter", "GiniSplitter", "EntropySplitter", "SquaredErrorSplitter"]
 

@@ -22,8 +22,8 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ._modelcheck import NODE_DTYPES, ModelFileError, field, int_field
-from ._oobfile import oob_shapes
+from .check import NODE_DTYPES, ModelFileError, field, int_field
+from .oob import oob_shapes
 
 __all__ = ["FORMAT_NAME", "FORMAT_VERSION", "ModelFileError", "data_fingerprint", "read_model", "write_model"]
 

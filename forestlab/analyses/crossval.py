@@ -9,10 +9,10 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from ._forest import Forest
-from ._results import CrossValidatedError
-from ._seeding import root_seed, tree_seed
-from ._validation import check_X, check_y
+from .._forest import Forest
+from .results import CrossValidatedError
+from ..engine.seeding import root_seed, tree_seed
+from ..intake.validation import check_X, check_y
 
 __all__ = ["cross_validated_error", "fold_assignment"]
 

@@ -23,10 +23,10 @@ from dataclasses import dataclass, replace
 import numpy as np
 from numpy.typing import NDArray
 
-from ._results import OutOfBag
-from ._tree import Tree, leaf_index, stacked_leaf_values
-from ._validation import Target
-from ._warnings import NeverOutOfBagWarning
+from .results import OutOfBag
+from ..engine.tree import Tree, leaf_index, stacked_leaf_values
+from ..intake.validation import Target
+from .._warnings import NeverOutOfBagWarning
 
 __all__ = ["out_of_bag"]
 

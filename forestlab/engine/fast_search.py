@@ -30,10 +30,10 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._presort import TrainingData
-from ._running import running_sums
-from ._splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
-from ._workspace import Workspace, scratch
+from .presort import TrainingData
+from .running import running_sums
+from .splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
+from .workspace import Workspace, scratch
 
 __all__ = ["FastPath", "binary_best_splits", "fast_path", "squared_error_best_splits"]
 

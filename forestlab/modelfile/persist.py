@@ -16,19 +16,19 @@ from typing import Any, Iterable
 import numpy as np
 from numpy.typing import NDArray
 
-from ._grow import GrowthRules
-from ._modelcheck import (LABEL_KINDS, NODE_DTYPES, ModelFileError, check_classes, check_finite, check_levels,
+from ..engine.grow import GrowthRules
+from .check import (LABEL_KINDS, NODE_DTYPES, ModelFileError, check_classes, check_finite, check_levels,
                           check_trees, field, int_field)
-from ._modelfile import FORMAT_NAME, FORMAT_VERSION, data_fingerprint, read_model, write_model
-from ._oob import out_of_bag
-from ._oobfile import oob_arrays, oob_from_arrays
-from ._presort import presort
-from ._sampler import AllFeatures, CandidateSampler, RandomSubset, TreeSubspace
-from ._splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
-from ._tree import NODE_STORAGE, Tree
-from ._validation import Target, check_splitter_output, resolve_categorical
-from ._warnings import IncompleteForestWarning, NeverOutOfBagWarning
-from ._weights import growth_weights
+from .container import FORMAT_NAME, FORMAT_VERSION, data_fingerprint, read_model, write_model
+from ..analyses.oob import out_of_bag
+from .oob import oob_arrays, oob_from_arrays
+from ..engine.presort import presort
+from ..engine.sampler import AllFeatures, CandidateSampler, RandomSubset, TreeSubspace
+from ..engine.splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
+from ..engine.tree import NODE_STORAGE, Tree
+from ..intake.validation import Target, check_splitter_output, resolve_categorical
+from .._warnings import IncompleteForestWarning, NeverOutOfBagWarning
+from ..intake.weights import growth_weights
 
 __all__ = ["MSG_NO_DATA", "StoredComponent", "growth_blocker", "load", "require_data", "save_forest"]
 
@@ -130,7 +130,7 @@ def _oob_to_store(forest: Any):
 
 
 def _header(forest: Any, labels: dict | None, include_data: bool, arrays: dict) -> dict:
-    from . import __version__
+    from .. import __version__
 
     s, rules, seed = forest._settings, forest._rules, forest.seed
     spec = s.class_weights
@@ -249,7 +249,7 @@ def load(path: str | PathLike, *, components: Iterable[Any] = ()) -> Any:
 
 
 def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Any:
-    from ._forest import Forest
+    from .._forest import Forest
 
     task = field(header, "task", str)
     if task not in TASKS:

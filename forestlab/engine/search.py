@@ -14,12 +14,12 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import record_cuts
-from ._categorical import category_order, left_sets
-from ._presort import TrainingData
-from ._running import running_sums
-from ._splitter import CartSplitter
-from ._workspace import Workspace, scratch
+from .fast_search import record_cuts
+from .categories import category_order, left_sets
+from .presort import TrainingData
+from .running import running_sums
+from .splitter import CartSplitter
+from .workspace import Workspace, scratch
 
 __all__ = ["Items", "Splits", "best_splits", "checked_impurity"]
 

@@ -38,13 +38,13 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from . import _shared
-from ._grow import GrowthRules, grow_batch
-from ._presort import TrainingData
-from ._progress import ProgressCallback, progress_callback
-from ._seeding import tree_seed
-from ._tree import Tree
-from ._workspace import Workspace, keep_freed_memory
+from . import shared as _shared
+from ..engine.grow import GrowthRules, grow_batch
+from ..engine.presort import TrainingData
+from .progress import ProgressCallback, progress_callback
+from ..engine.seeding import tree_seed
+from ..engine.tree import Tree
+from ..engine.workspace import Workspace, keep_freed_memory
 
 __all__ = ["TreeGrowthError", "grow_block", "grow_trees", "plan_blocks", "start_method"]
 

@@ -17,9 +17,9 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ._cases import ROW_BUDGET, analysis_X, analysis_y
-from ._seeding import root_seed, tree_generator
-from ._tree import Tree, leaf_index
+from .cases import ROW_BUDGET, analysis_X, analysis_y
+from ..engine.seeding import root_seed, tree_generator
+from ..engine.tree import Tree, leaf_index
 
 __all__ = ["Importance", "importance"]
 

@@ -14,10 +14,10 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ._sampler import CandidateSampler, RandomSubset, _check_size
-from ._splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
-from ._warnings import SingleClassWarning
-from ._weights import check_balance, check_class_weights
+from ..engine.sampler import CandidateSampler, RandomSubset, _check_size
+from ..engine.splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
+from .._warnings import SingleClassWarning
+from .weights import check_balance, check_class_weights
 
 __all__ = ["Settings", "check_settings", "check_X", "check_y", "Target", "check_splitter_output",
            "resolve_categorical"]

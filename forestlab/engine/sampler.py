@@ -14,7 +14,7 @@ from typing import ClassVar
 import numpy as np
 from numpy.typing import NDArray
 
-from ._component import Component
+from .component import Component
 
 __all__ = ["CandidateSampler", "AllFeatures", "RandomSubset", "TreeSubspace", "checked_mask", "draw_masks"]
 

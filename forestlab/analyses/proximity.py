@@ -21,8 +21,8 @@ import scipy.sparse
 import scipy.sparse.linalg
 from numpy.typing import NDArray
 
-from ._cases import ROW_BUDGET, analysis_X, analysis_y, leaves, row_blocks
-from ._warnings import OverlapWarning
+from .cases import ROW_BUDGET, analysis_X, analysis_y, leaves, row_blocks
+from .._warnings import OverlapWarning
 
 __all__ = ["ProximityMap", "classical_scaling", "outlyingness", "proximity", "proximity_blocks",
            "proximity_map"]

@@ -7,7 +7,7 @@ import hashlib
 import numpy as np
 from numpy.typing import NDArray
 
-from ._validation import Target
+from .validation import Target
 
 __all__ = ["data_fingerprint", "check_same_data"]
 

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._categorical import words_for
+from .categories import words_for
 
 __all__ = ["ORDER_TABLE_BYTES", "TrainingData", "dense_ranks", "presort", "sorted_rows"]
 

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._categorical import in_left_set
+from .categories import in_left_set
 
 __all__ = ["NODE_STORAGE", "Tree", "goes_right", "leaf_index", "stacked_leaf_values"]
 

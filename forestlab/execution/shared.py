@@ -26,7 +26,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ._presort import TrainingData
+from ..engine.presort import TrainingData
 
 __all__ = ["SEGMENT_PREFIX", "SegmentHandle", "SharedTrainingData", "BlockBoard", "attach", "attach_board"]
 

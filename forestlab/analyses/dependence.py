@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ._cases import ROW_BUDGET, analysis_X, mean_prediction
+from .cases import ROW_BUDGET, analysis_X, mean_prediction
 
 __all__ = ["Dependence", "partial_dependence"]
 

@@ -8,9 +8,9 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ._persist import require_data
-from ._tree import leaf_index
-from ._validation import check_y
+from ..modelfile.persist import require_data
+from ..engine.tree import leaf_index
+from ..intake.validation import check_y
 
 __all__ = ["ROW_BUDGET", "analysis_X", "analysis_y", "leaves", "mean_prediction", "row_blocks"]
 

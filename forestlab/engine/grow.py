@@ -14,14 +14,14 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ._fast_search import FastPath, fast_path
-from ._bootstrap import draw_counts
-from ._presort import TrainingData
-from ._sampler import CandidateSampler, draw_masks
-from ._splitter import CartSplitter
-from ._search import Items, Splits, best_splits, checked_impurity
-from ._tree import NODE_STORAGE, Tree, goes_right
-from ._workspace import Workspace
+from .fast_search import FastPath, fast_path
+from .bootstrap import draw_counts
+from .presort import TrainingData
+from .sampler import CandidateSampler, draw_masks
+from .splitter import CartSplitter
+from .search import Items, Splits, best_splits, checked_impurity
+from .tree import NODE_STORAGE, Tree, goes_right
+from .workspace import Workspace
 
 __all__ = ["GrowthRules", "grow_batch"]
 
