@@ -30,6 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from .cuts import light_cuts, per_node, pick_cuts, record_cuts, record_sides, segment_totals
 from .presort import TrainingData
 from .running import running_sums
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
@@ -181,7 +182,7 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
         right = np.take(total, cand_at, out=scratch(work, "right_at", at.size, total.dtype), mode="clip")
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
-    light = _light_cuts(seg, wl, wr, min_leaf, lightest)  # (None where ``at`` is used: min_leaf cannot bind)
+    light = light_cuts(seg, wl, wr, min_leaf, lightest)  # (None where ``at`` is used: min_leaf cannot bind)
     size = left.size
     with np.errstate(divide="ignore", invalid="ignore"):
         score = scratch(work, "score", size, np.float64)
@@ -191,13 +192,13 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
             wr, cr = _unpack(right, work, ("wr", "cr"))
             np.negative(_weighted_entropy(wl, cl, score, tmp), out=score)
             score -= _weighted_entropy(wr, cr, scratch(work, "imp", size, np.float64), tmp)
-            nodes, pick, decrease = _pick(seg, parent, parent, tie, score, light, work, at)
+            nodes, pick, decrease = pick_cuts(seg, parent, parent, tie, score, light, work, at)
         else:  # half the Gini decrease less the node's constant; the left sums are spent once divided
             _half_gini_score(wl, cl, score)
             score += _half_gini_score(wr, cr, left.view(np.float64))
             node_w, node_c1 = _halves(total[seg.node_first])
-            base = _per_node(seg, parent, -np.square(node_c1, dtype=np.float64) / node_w)
-            nodes, pick, decrease = _pick(seg, 0.5 * parent, base, tie, score, light, work, at)
+            base = per_node(seg, parent, -np.square(node_c1, dtype=np.float64) / node_w)
+            nodes, pick, decrease = pick_cuts(seg, 0.5 * parent, base, tie, score, light, work, at)
             decrease *= 2.0
     element = pick if at is None else at[pick]
     cand = seg.candidate(element) if cand_at is None else cand_at[pick]
@@ -290,54 +291,6 @@ def _candidates_at(seg, element: NDArray[np.intp]) -> NDArray[np.int64]:
     return np.right_shift(np.take(seg.code, element, mode="clip"), seg.code_shift).astype(np.int64, copy=False)
 
 
-def _light_cuts(seg, wl, wr, min_leaf: float, lightest: float):
-    """The cuts that leave less than ``min_leaf`` on a side: None (none can: every item weighs more), their
-    elements, or a mask over all elements.
-
-    Every item weighs at least ``lightest``, so only the first ``r = ceil(min_leaf / lightest)`` elements of a
-    segment can have a light left side and only its last ``r + 1`` a light right side. Where segments are
-    long, only those are checked.
-    """
-    if min_leaf <= lightest:
-        return None
-    reach = int(np.ceil(min_leaf / lightest))
-    L, C = wl.size, seg.start.size
-    if 4 * C * (2 * reach + 1) >= L:
-        return np.minimum(wl, wr) < min_leaf
-    lead = seg.start[:, None] + np.arange(reach)
-    trail = (seg.start + seg.size - 1)[:, None] - np.arange(reach + 1)
-    ends = np.concatenate([lead[lead < (seg.start + seg.size)[:, None]], trail[trail >= seg.start[:, None]]])
-    return ends[np.minimum(wl[ends], wr[ends]) < min_leaf]
-
-
-def segment_totals(seg, total: NDArray, work: Workspace | None = None, out: NDArray | None = None) -> NDArray:
-    """Every element's segment total, in ``out`` if given (a buffer it may be written to), else in a scratch
-    buffer of ``work`` or a new array.
-
-    Where segments average 12 elements or more, ``total`` is repeated over them (``np.repeat`` copies runs:
-    0.6-1.2 ns an element at 16-32 against 4 ns at 2 on the Intel test machine); on large levels a few
-    ten thousand elements at a time into the buffer, so that no level-sized temporary is made. Else one
-    gather by candidate (about 1.2-1.6 ns an element with the shift that forms the candidates).
-    """
-    L = seg.code.size
-    repeat = total.size * 12 <= L
-    if repeat and L <= 4 * _REPEAT_RUN:
-        return np.repeat(total, seg.size)
-    out = scratch(work, "segment_totals", L, total.dtype) if out is None else out
-    if not repeat:
-        return np.take(total, seg.cand_of, out=out, mode="clip")
-    ends = seg.start + seg.size
-    cuts = np.searchsorted(ends, np.arange(_REPEAT_RUN, L, _REPEAT_RUN), side="right")
-    for lo, hi in zip([0, *cuts.tolist()], [*cuts.tolist(), total.size]):
-        if hi > lo:
-            out[seg.start[lo]:ends[hi - 1]] = np.repeat(total[lo:hi], seg.size[lo:hi])
-    return out
-
-
-#: Elements filled per ``np.repeat`` call of :func:`segment_totals` (a few hundred KiB, cache-sized)
-_REPEAT_RUN = 1 << 15
-
-
 def _half_gini_score(W, c1, out):
     """``c1**2 / W`` into ``out`` from the exact integer counts (int32 views; the square is formed in floats,
     exact below 2**53), so with one rounding.
@@ -372,100 +325,16 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, paren
     left_w, left_s = left.real, left.imag
     right_w = segment_totals(seg, total.real, work)  # every element's segment weight, then less the left's
     right_w -= left_w
-    light = _light_cuts(seg, left_w, right_w, min_leaf, lightest)
+    light = light_cuts(seg, left_w, right_w, min_leaf, lightest)
     with np.errstate(divide="ignore", invalid="ignore"):  # (segment ends: masked by the pick)
         score = np.square(left_s, out=scratch(work, "score", L, np.float64))
         score /= np.multiply(left_w, right_w, out=scratch(work, "tmp1", L, np.float64))
     weight = total.real[seg.node_first]  # the decrease is W * score: picked on score, at the node's scale
-    scale = _per_node(seg, parent, 1.0 / weight)
-    nodes, pick, decrease = _pick(seg, parent * scale, np.zeros_like(parent), tie, score, light, work)
+    scale = per_node(seg, parent, 1.0 / weight)
+    nodes, pick, decrease = pick_cuts(seg, parent * scale, np.zeros_like(parent), tie, score, light, work)
     decrease /= scale[nodes]
     none = np.zeros(pick.size)
     cand = seg.candidate(pick)
     lw, rw = left_w[pick], right_w[pick]
     record_sides(seg, out, nodes, pick, cand, (lw, none), (rw, none))
     return record_cuts(seg, out, nodes, pick, decrease, lw >= rw, cand)
-
-
-def _per_node(seg, parent, values):
-    """A (K,) array like ``parent`` holding ``values`` (one per node with candidates, from the totals of its
-    first candidate's segment) at those nodes, 0 elsewhere."""
-    out = np.zeros_like(parent)
-    out[seg.cand_node[seg.node_first]] = values
-    return out
-
-
-def _pick(seg, parent, base, tie, score, light, work: Workspace | None, at=None):
-    """Find the first best-scoring cut of every node: returns the nodes that have one, the cuts (positions
-    in ``score``) and their decreases.
-
-    ``score`` scores every element (``at`` None; first the boundaries that are no valid cut are masked:
-    ``seg.no_cut``, segment ends, the ``light`` cuts of :func:`_light_cuts`), or only the valid cuts after the
-    increasing elements ``at``. A cut's decrease is ``base[node] + score``; ties are judged on the decrease,
-    at the scale of the larger of the best decrease and the parent's ``W i(t)``. A node's elements are
-    contiguous (its candidates in order, each sorted by value), so its first cut reaching the bar is the
-    first hit at or after its first element. Segments are never empty (every candidate belongs to a node
-    that has items).
-    """
-    nodes = seg.cand_node[seg.node_first]
-    node_start = seg.start[seg.node_first]
-    if at is None:
-        for invalid in (seg.no_cut, light):
-            if invalid is not None and invalid.dtype == np.bool_:
-                np.putmask(score, invalid, -np.inf)
-            elif invalid is not None:
-                score[invalid] = -np.inf
-        score[seg.start[1:] - 1] = -np.inf
-        score[-1] = -np.inf
-    else:
-        node_start = np.searchsorted(at, node_start)
-    size = score.size
-    counts = np.diff(np.append(node_start, size))
-    if size == 0:
-        return nodes[:0], node_start[:0], score[:0]
-    if counts.all():
-        best = np.maximum.reduceat(score, node_start)
-    else:  # (only where ``at`` skips a node: a pure one never reaches the search)
-        best = np.full(counts.size, -np.inf)
-        best[counts > 0] = np.maximum.reduceat(score, node_start[counts > 0])
-    found = best > -np.inf
-    bar = np.full(best.size, np.inf)  # (-inf arithmetic where nothing is found, but no inf - inf)
-    np.subtract(best, tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes])), out=bar, where=found)
-    spent = seg.no_cut if seg.no_cut is not None else scratch(work, "no_cut", size, np.bool_)
-    reached = np.greater_equal(score, np.repeat(bar, counts), out=spent[:size])
-    hit = np.flatnonzero(reached)
-    pick = hit[np.searchsorted(hit, node_start[found])]
-    nodes = nodes[found]
-    return nodes, pick, base[nodes] + score[pick]
-
-
-def record_sides(seg, out, nodes, element, cand, left, right) -> None:
-    """Write the children of the cut after ``element`` (of candidate ``cand``) of each of ``nodes``: their
-    summed weight, class-1 count (two classes; 0 otherwise) and number of items, so the next level need not
-    sum them again (exact where they are integers)."""
-    items_left = element - seg.start[cand] + 1
-    sides = out.sides[nodes]
-    sides[:, 0, 0], sides[:, 0, 1], sides[:, 0, 2] = left[0], left[1], items_left
-    sides[:, 1, 0], sides[:, 1, 1], sides[:, 1, 2] = right[0], right[1], seg.size[cand] - items_left
-    out.sides[nodes] = sides
-
-
-def record_cuts(seg, out, nodes, element, decrease, heavier_left, cand=None):
-    """Write the cut after sorted ``element`` (of candidate ``cand``, found if not given) of each of ``nodes``
-    into ``out``: its feature, the midpoint of the neighbouring distinct values as threshold (the lower value
-    where the midpoint rounds onto the upper one) and the dense rank of the lower value, the decrease, and
-    missing values sent to the heavier child."""
-    feature = seg.cand_feat[seg.candidate(element) if cand is None else cand]
-    row = seg.rows_of(element)
-    if seg.x is None:  # the fast paths: read the two values of each cut from X
-        lo, hi = seg.data.X[row, feature], seg.data.X[seg.rows_of(element + 1), feature]
-    else:
-        lo, hi = seg.x[element], seg.x[element + 1]
-    threshold = 0.5 * lo + 0.5 * hi
-    out.found[nodes] = True
-    out.feature[nodes] = feature
-    out.cut_rank[nodes] = seg.data.dense[feature, row]
-    out.threshold[nodes] = np.where((threshold < hi) & (threshold >= lo), threshold, lo)
-    out.decrease[nodes] = decrease
-    out.missing_left[nodes] = heavier_left
-    return out

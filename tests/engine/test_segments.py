@@ -13,7 +13,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import forestlab as fl
-from forestlab.engine.search import Items, _sorted_segments
+from forestlab.engine.segments import Items, sorted_segments
 
 
 def level(n, p, nodes, seed, rounding=None):
@@ -41,7 +41,7 @@ def test_segments_are_each_node_sorted_by_value_ties_in_item_order(n, p, nodes, 
     value order exists) the 32-bit codes read back through that table."""
     data, items, mask, X = level(n, p, nodes, seed=n + nodes, rounding=rounding)
     cand = np.flatnonzero(mask)
-    seg = _sorted_segments(data, items, np.zeros(nodes, dtype=np.int64), mask, cand, by_position=by_position)
+    seg = sorted_segments(data, items, np.zeros(nodes, dtype=np.int64), mask, cand, by_position=by_position)
     assert (seg.item is None) == (by_position and rounding is None)  # which path ran
     expected, no_cut = [], []
     for c in cand:  # reference: per candidate, lexsort by (value, item)
@@ -78,7 +78,7 @@ def test_light_cuts_match_their_definition(sizes, lightest, min_leaf, seed):
     definition applied to every element, with running sums written here."""
     from types import SimpleNamespace
 
-    from forestlab.engine.fast_search import _light_cuts
+    from forestlab.engine.cuts import light_cuts
 
     rng = np.random.default_rng(seed)
     size = np.array(sizes)
@@ -87,7 +87,7 @@ def test_light_cuts_match_their_definition(sizes, lightest, min_leaf, seed):
     left = np.concatenate([np.cumsum(w[a:a + k]) for a, k in zip(start, size)])
     right = np.repeat(np.add.reduceat(w, start), size) - left
     seg = SimpleNamespace(start=start, size=size)
-    light = _light_cuts(seg, left, right, min_leaf, lightest)
+    light = light_cuts(seg, left, right, min_leaf, lightest)
     found = np.zeros(w.size, dtype=bool)
     if light is not None:
         found[light] = True  # a mask over all elements, or the elements themselves
@@ -100,7 +100,7 @@ def test_segment_totals_spread_every_total_over_its_segment(segments, mean_size)
     ten thousand elements at a time into a buffer on large ones, gather by candidate for short segments)."""
     from types import SimpleNamespace
 
-    from forestlab.engine.fast_search import segment_totals
+    from forestlab.engine.cuts import segment_totals
 
     rng = np.random.default_rng(segments)
     size = rng.integers(1, 2 * mean_size, segments)

@@ -323,7 +323,7 @@ def _imbalanced(n, rng):
 
 PUBLIC_MODULES = ["forestlab._forest", "forestlab.engine.sampler", "forestlab.engine.splitter",
                   "forestlab.engine.tree", "forestlab.engine.seeding", "forestlab.engine.bootstrap",
-                  "forestlab.synthetic"]
+                  "forestlab.synthetic._classification", "forestlab.synthetic._regression"]
 
 
 @pytest.mark.parametrize("name", PUBLIC_MODULES)
