@@ -193,7 +193,7 @@ def fit_forestlab(data, m, trees, min_leaf, workers=1, rng=1):
 def forest_bytes(forest) -> tuple[int, int]:
     """Bytes of all node arrays, and number of nodes."""
     nbytes = nodes = 0
-    for tree in forest._trees:
+    for tree in (forest.tree(b) for b in range(forest.trees)):
         nbytes += sum(getattr(tree, f.name).nbytes for f in fields(tree))
         nodes += tree.nodes
     return nbytes, nodes

@@ -1,13 +1,16 @@
 """forestlab: bagged decision trees and random forests in pure NumPy, with out-of-bag analytics."""
 
-from .analyses.crossval import cross_validated_error as cross_validated_error
-from .analyses.dependence import Dependence as Dependence
+from ._crossval import cross_validated_error as cross_validated_error
 from ._forest import Forest as Forest
+from ._load import load as load
+from ._version import __version__ as __version__
+from ._warnings import ForestlabWarning as ForestlabWarning
+from ._warnings import IncompleteForestWarning as IncompleteForestWarning
+from ._warnings import NeverOutOfBagWarning as NeverOutOfBagWarning
+from ._warnings import OverlapWarning as OverlapWarning
+from ._warnings import SingleClassWarning as SingleClassWarning
+from .analyses.dependence import Dependence as Dependence
 from .analyses.importance import Importance as Importance
-from .modelfile.check import ModelFileError as ModelFileError
-from .execution.parallel import TreeGrowthError as TreeGrowthError
-from .modelfile.persist import StoredComponent as StoredComponent
-from .modelfile.persist import load as load
 from .analyses.proximity import ProximityMap as ProximityMap
 from .analyses.proximity import classical_scaling as classical_scaling
 from .analyses.results import CrossValidatedError as CrossValidatedError
@@ -22,13 +25,9 @@ from .engine.splitter import EntropySplitter as EntropySplitter
 from .engine.splitter import GiniSplitter as GiniSplitter
 from .engine.splitter import SquaredErrorSplitter as SquaredErrorSplitter
 from .engine.tree import Tree as Tree
-from ._warnings import ForestlabWarning as ForestlabWarning
-from ._warnings import IncompleteForestWarning as IncompleteForestWarning
-from ._warnings import NeverOutOfBagWarning as NeverOutOfBagWarning
-from ._warnings import OverlapWarning as OverlapWarning
-from ._warnings import SingleClassWarning as SingleClassWarning
-
-__version__ = "0.1.0"
+from .execution.parallel import TreeGrowthError as TreeGrowthError
+from .modelfile.check import ModelFileError as ModelFileError
+from .modelfile.stored import StoredComponent as StoredComponent
 
 __all__ = [
     "AllFeatures",

@@ -1,9 +1,9 @@
-"""The Forest: bootstrap aggregation of level-wise CART trees, with the in-bag counts kept."""
+"""The Forest: the user's front door. Settings, fit, prediction, the out-of-bag results, files, and one-line
+hand-offs to the analyses (which document themselves, in :mod:`forestlab.analyses`)."""
 
 from __future__ import annotations
 
 import dataclasses
-import math
 from collections.abc import Callable, Sequence
 from concurrent.futures import Executor
 from os import PathLike
@@ -12,41 +12,38 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from ._fitting import grow, more_of_the_same, prepare, regrow
+from ._members import fitted_attribute, hand_off, setting, settings_repr, vote_shares
 from .analyses import dependence as _dependence
-
 from .analyses import importance as _importance
-
 from .analyses import proximity as _proximity
-from .engine.bootstrap import balanced_sample_size
-from .engine.categories import apply_levels, encode_columns
-from .analyses.dependence import Dependence
-from .intake.fingerprint import check_same_data, data_fingerprint
-from .engine.grow import GrowthRules, grow_batch
-from .analyses.importance import Importance
 from .analyses.oob import out_of_bag
-from .execution.parallel import grow_trees
-from .modelfile.persist import MSG_NO_DATA, growth_blocker, save_forest
-from .engine.presort import presort
-from .analyses.proximity import ProximityMap
 from .analyses.results import OutOfBag
+from .analyses.view import FittedForest
+from .engine.presort import TrainingData
 from .engine.sampler import CandidateSampler
-from .engine.seeding import check_rng, root_seed, tree_seed
-from .engine.splitter import CartSplitter, GiniSplitter, SquaredErrorSplitter
-from .intake.tables import default_names, match_columns, read_table
-from .engine.tree import Tree, leaf_index
-from .intake.validation import (Settings, Target, _int_at_least, check_settings, check_splitter_output, check_X,
-                          check_y, resolve_categorical)
-from .intake.weights import check_weights, class_weight_vector, growth_weights
+from .engine.seeding import check_rng
+from .engine.splitter import CartSplitter
+from .engine.tree import Tree, tree_values
+from .intake.settings import Provenance, Settings, check_settings
+from .intake.validation import int_at_least
+from .modelfile.stored import StoredForest
+from .modelfile.write import write_forest
 
 __all__ = ["Forest"]
 
-# Trees grown together in one batch hold about this many (tree, row) items; batching pays at small n.
-BATCH_ITEMS = 65_536
-MAX_BATCH = 64
 
-_DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "depth_limit": None,
-             "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None,
-             "balance": None, "class_weights": None, "executor": None, "progress": None}
+def _assembled(settings: Settings, rng: Any, stored: StoredForest | None = None,
+               data: TrainingData | None = None) -> Forest:
+    """A Forest of valid ``settings`` (the constructor's checks are not repeated); fitted as ``stored`` says,
+    with the presorted ``data`` to grow more trees, when given."""
+    forest = Forest.__new__(Forest)
+    forest._settings, forest._rng = settings, rng
+    forest._view = forest._grown = forest._oob = None
+    forest._data = data
+    if stored is not None:
+        forest._view, forest._grown, forest._oob = stored.view, stored.provenance, stored.oob
+    return forest
 
 
 class Forest:
@@ -151,13 +148,13 @@ class Forest:
     (50, 300)
     """
 
-    inbag: NDArray[np.uint8]
-    classes: NDArray | None
-    task: str
-    features: int
-    feature_names: tuple[str, ...]
-    case_weights: NDArray[np.float64] | None
-    seed: np.random.SeedSequence
+    inbag = fitted_attribute("inbag", "ndarray of uint8, shape (trees, n): the bootstrap counts (read-only).")
+    classes = fitted_attribute("classes", "Class labels in vote-column order (:meth:`votes`); None for regression.")
+    task = fitted_attribute("task", '``"classification"`` or ``"regression"``.')
+    features = fitted_attribute("features", "Number of features seen in fit.")
+    feature_names = fitted_attribute("feature_names", "Column names seen in fit, or ``x0 .. x{p-1}`` for an array.")
+    case_weights = fitted_attribute("case_weights", "The ``weights`` given to :meth:`fit` (read-only), or None.")
+    seed = fitted_attribute("seed", "Root SeedSequence; tree ``b`` is grown from its child ``b``.")
 
     def __init__(self, trees: int = 500, *, sampler: CandidateSampler | int | float | str | None = None,
                  splitter: CartSplitter | str | None = None, min_leaf: float | None = None,
@@ -171,73 +168,35 @@ class Forest:
                                                   executor, progress)
         check_rng(rng)
         self._rng = rng
-        self._trees: list[Tree] = []
-        self._frame_labels: dict[str, tuple] = {}
+        self._view: FittedForest | None = None   # what the analyses read
+        self._grown: Provenance | None = None    # how the trees were grown
+        self._data: TrainingData | None = None   # the presorted training data, to grow more trees
         self._oob: OutOfBag | None = None
 
     # ----------------------------------------------------------------------------------------- settings
-    @property
-    def trees(self) -> int:
-        """Number of trees (the setting before fit, the number grown after)."""
-        return len(self._trees) if self._trees else self._settings.trees
-
-    @property
-    def sampler(self) -> CandidateSampler:
-        """The candidate-feature sampler (task-dependent size resolved after fit)."""
-        return getattr(self, "_rules", None).sampler if self.fitted else self._settings.sampler
-
-    @property
-    def splitter(self) -> CartSplitter | None:
-        """The split criterion (the task default after fit when none was given)."""
-        return self._rules.splitter if self.fitted else self._settings.splitter
-
-    @property
-    def min_leaf(self) -> float | None:
-        """Smallest leaf weight (the task default after fit when none was given)."""
-        return self._rules.min_leaf if self.fitted else self._settings.min_leaf
-
-    @property
-    def depth_limit(self) -> int | None:
-        """Largest node depth, or None."""
-        return self._settings.depth_limit
-
-    @property
-    def sample_size(self) -> int | float | None:
-        """Cases drawn per tree (an int after fit)."""
-        return self._rules.sample_size if self.fitted else self._settings.sample_size
-
-    @property
-    def replace(self) -> bool:
-        """Whether bootstrap draws are with replacement."""
-        return self._settings.replace
-
-    @property
-    def balance(self) -> str | None:
-        """How each tree's sample is drawn: None (plain bootstrap) or ``"classes"`` (class-balanced)."""
-        return self._settings.balance
-
-    @property
-    def class_weights(self) -> dict | str | None:
-        """The class weights setting; after fit, a dict label -> weight of every class (None if not set)."""
-        return self._class_weights if self.fitted else self._settings.class_weights
+    trees = setting("trees", "Number of trees (the setting before fit, the number grown after).",
+                     lambda f: len(f._view.trees))
+    sampler = setting("sampler", "The candidate-feature sampler (task-dependent size resolved after fit).",
+                       lambda f: f._grown.rules.sampler)
+    splitter = setting("splitter", "The split criterion (the task default after fit when none was given).",
+                        lambda f: f._grown.rules.splitter)
+    min_leaf = setting("min_leaf", "Smallest leaf weight (the task default after fit when none was given).",
+                        lambda f: f._grown.rules.min_leaf)
+    depth_limit = setting("depth_limit", "Largest node depth, or None.")
+    sample_size = setting("sample_size", "Cases drawn per tree (an int after fit).",
+                           lambda f: f._grown.rules.sample_size)
+    replace = setting("replace", "Whether bootstrap draws are with replacement.")
+    balance = setting("balance", 'How each tree\'s sample is drawn: None (plain bootstrap) or ``"classes"``.')
+    class_weights = setting("class_weights", "The class weights setting; after fit, a dict label -> weight of "
+                             "every class (None if not set).", lambda f: f._grown.class_weights)
 
     @property
     def fitted(self) -> bool:
         """True once :meth:`fit` has run."""
-        return bool(self._trees)
+        return self._view is not None
 
     def __repr__(self) -> str:
-        given = {"trees": self._settings.trees, "sampler": self._settings.sampler,
-                 "splitter": self._settings.splitter, "min_leaf": self._settings.min_leaf,
-                 "depth_limit": self._settings.depth_limit, "sample_size": self._settings.sample_size,
-                 "replace": self._settings.replace, "rng": self._rng, "task": self._settings.task,
-                 "workers": self._settings.workers, "categorical": self._settings.categorical,
-                 "balance": self._settings.balance, "class_weights": self._settings.class_weights,
-                 "executor": self._settings.executor, "progress": self._settings.progress}
-        if repr(given["sampler"]) == "RandomSubset(None)":
-            given["sampler"] = None
-        shown = [f"{k}={v!r}" for k, v in given.items() if v is not _DEFAULTS[k] and v != _DEFAULTS[k]]
-        return f"Forest({', '.join(shown)})"
+        return settings_repr(self._settings, self._rng)
 
     # ----------------------------------------------------------------------------------------- fitting
     def fit(self, X: ArrayLike, y: ArrayLike, weights: ArrayLike | None = None) -> Forest:
@@ -249,55 +208,10 @@ class Forest:
         and in the out-of-bag error; a case of weight 0 takes no part in growing. :attr:`inbag` keeps the
         unweighted draw counts. Refitting replaces every tree; a fit that fails leaves the forest as it was.
         """
-        previous = dict(self.__dict__)
-        try:
-            return self._fit(X, y, weights)
-        except BaseException:
-            self.__dict__.clear()
-            self.__dict__.update(previous)
-            raise
-
-    def _fit(self, X: ArrayLike, y: ArrayLike, weights: ArrayLike | None) -> Forest:
-        values, names, labels = read_table(X)
-        X = check_X(values)
-        if X.shape[0] < 2:
-            raise ValueError(f"`X` must have at least 2 rows to grow a tree; got {X.shape[0]}")
-        target = check_y(y, X.shape[0], self._task_for())
-        fingerprint = data_fingerprint(X, target)
-        case_weights = check_weights(weights, X.shape[0])
-        self._check_class_options(target)
-        rules = self._resolve_rules(target, X.shape)
-        stats = check_splitter_output(rules.splitter, target)
-        columns = resolve_categorical(self._settings.categorical, X.shape[1],
-                                      None if names is None else list(names), frame=labels)
-        X, self._levels = encode_columns(X, columns)
-        categories = np.zeros(X.shape[1], dtype=np.int64)
-        for j, values in self._levels.items():
-            categories[j] = values.size
-        classes = 0 if target.classes is None else target.classes.size
-        class_vector = self._class_vector(target)
-        self._data = presort(X, target.values, stats, classes, categories,
-                             growth_weights(case_weights, class_vector, target.values),
-                             target.values if self._settings.balance else None)
-        del stats  # presort keeps its own weighted copy
-        self._categories = self._data.categories
-        self._rules = rules
-        self.task = target.task
-        self.classes = target.classes
-        self.features = X.shape[1]
-        self.feature_names = names if names is not None else default_names(X.shape[1])
-        self._frame_labels = labels
-        self.case_weights = case_weights
-        self._class_weights = None if class_vector is None else dict(zip(target.classes.tolist(),
-                                                                         class_vector.tolist()))
-        self._target = target
-        self.seed = root_seed(self._rng)
-        self._fingerprint = fingerprint
-        self._oob = None
-        trees, inbag = self._grow(range(self._settings.trees))
-        self._trees = trees
-        self.inbag = inbag
-        self.inbag.flags.writeable = False
+        view, grown, data = prepare(self._settings, self._rng, X, y, weights)
+        trees, inbag = grow(data, grown, self._settings, range(self._settings.trees))
+        self._view = dataclasses.replace(view, trees=tuple(trees), inbag=_read_only(inbag))
+        self._grown, self._data, self._oob = grown, data, None
         return self
 
     def add_trees(self, X: ArrayLike, y: ArrayLike, trees: int = 100) -> Forest:
@@ -313,82 +227,17 @@ class Forest:
         ValueError
             When ``X`` or ``y`` differ from the fit data (checked by a sha256 fingerprint).
         """
-        self._check_fitted()
-        more = _int_at_least(trees, "trees", 1)
-        X = check_X(match_columns(X, self.feature_names, labels=self._frame_labels), features=self.features)
-        target = check_y(y, X.shape[0], self.task)
-        check_same_data(self._fingerprint, self._data.X.shape, X, target)
-        first = len(self._trees)
-        grown, counts = self._grow(range(first, first + more))
-        self._trees = self._trees + grown
-        self.inbag = np.concatenate([self.inbag, counts])
-        self.inbag.flags.writeable = False
-        self._settings = dataclasses.replace(self._settings, trees=len(self._trees))
+        view = self._fitted_view()
+        more = int_at_least(trees, "trees", 1)
+        more_of_the_same(view, self._grown, X, y)
+        first = len(view.trees)
+        grown, counts = grow(self._data, self._grown, self._settings, range(first, first + more))
+        self._view = dataclasses.replace(view, trees=view.trees + tuple(grown),
+                                         inbag=_read_only(np.concatenate([view.inbag, counts])))
+        self._settings = dataclasses.replace(self._settings, trees=len(self._view.trees))
         self._oob = None
         return self
 
-    def _clone_settings(self, rng: Any = None) -> Forest:
-        """A new, unfitted Forest with this forest's settings and the given ``rng``."""
-        clone = Forest.__new__(Forest)
-        clone._settings = self._settings
-        clone._rng = rng
-        clone._trees = []
-        clone._oob = None
-        return clone
-
-    def _task_for(self) -> str | None:
-        s = self._settings
-        if s.task is not None:
-            return s.task
-        return s.splitter.task if s.splitter is not None else None
-
-    def _check_class_options(self, target: Target) -> None:
-        s = self._settings
-        if target.task == "regression" and (s.balance is not None or s.class_weights is not None):
-            raise ValueError("`balance` and `class_weights` are for classification, but the task is regression")
-
-    def _class_vector(self, target: Target) -> NDArray[np.float64] | None:
-        spec = self._settings.class_weights
-        return None if spec is None else class_weight_vector(spec, target.classes, target.values)
-
-    def _resolve_rules(self, target: Target, shape: tuple[int, int]) -> GrowthRules:
-        s = self._settings
-        n, p = shape
-        splitter = s.splitter
-        if splitter is None:
-            splitter = GiniSplitter() if target.task == "classification" else SquaredErrorSplitter()
-        elif splitter.task != target.task:
-            raise ValueError(f"`splitter` {splitter!r} is for {splitter.task}, but the task is {target.task}")
-        min_leaf = s.min_leaf if s.min_leaf is not None else (1.0 if target.task == "classification" else 5.0)
-        size = s.sample_size
-        if s.balance is not None:
-            size = balanced_sample_size(size, target.values, s.replace)
-        size = n if size is None else (max(1, math.floor(size * n)) if isinstance(size, float) else size)
-        if not s.replace and size > n:
-            raise ValueError(f"`sample_size` = {size} exceeds the {n} cases available without replacement")
-        return GrowthRules(sampler=s.sampler.resolve(p, target.task), splitter=splitter, min_leaf=min_leaf,
-                           depth_limit=s.depth_limit, sample_size=int(size), replace=s.replace)
-
-    def _grow(self, tree_ids: range) -> tuple[list[Tree], NDArray[np.uint8]]:
-        """Grow the trees with the given spawn indices, in batches sized by the number of cases."""
-        blocker = growth_blocker(self)
-        if blocker is not None or self._data is None:
-            raise RuntimeError(blocker or MSG_NO_DATA)
-        batch = max(1, min(MAX_BATCH, BATCH_ITEMS // self._data.rows))
-        s = self._settings
-        return grow_trees(self._data, self._rules, self.seed, tree_ids, batch, workers=s.workers,
-                          executor=s.executor, progress=s.progress)
-
-    def _grow_checked(self, ids: list[int], counts: list[NDArray[np.uint8]]) -> list[Tree]:
-        """``grow_batch`` for the given trees (their in-bag counts appended to ``counts``)."""
-        blocker = growth_blocker(self)
-        if blocker is not None or self._data is None:
-            raise RuntimeError(blocker or MSG_NO_DATA)
-        grown, inbag = grow_batch(self._data, self._rules, [tree_seed(self.seed, b) for b in ids])
-        counts.append(inbag)
-        return grown
-
-    # ----------------------------------------------------------------------------------------- out-of-bag
     @property
     def oob(self) -> OutOfBag:
         """Out-of-bag results (:class:`OutOfBag`), computed on first access from the trees and :attr:`inbag`.
@@ -397,29 +246,25 @@ class Forest:
         their curve, the confusion matrix and the per-class errors) are weighted by them. Warns once with
         :class:`NeverOutOfBagWarning` when some case was never out-of-bag.
         """
-        self._check_fitted()
-        if self._oob is None and self._data is None:
-            raise RuntimeError(MSG_NO_DATA)
+        view = self._fitted_view()
         if self._oob is None:
-            self._oob = out_of_bag(self._trees, self.inbag, self._data.X, self._target, stacklevel=2,
-                                   weights=self.case_weights)
+            self._oob = out_of_bag(view, stacklevel=2)
         return self._oob
 
     # ----------------------------------------------------------------------------------------- inspection
     def tree(self, b: int) -> Tree:
         """Tree ``b`` as flat node arrays (see :class:`Tree`)."""
-        self._check_fitted()
+        trees = self._fitted_view().trees
         if isinstance(b, (bool, np.bool_)) or not isinstance(b, (int, np.integer)):
             raise TypeError(f"`b` must be an int tree index; got {type(b).__name__}")
-        if not -len(self._trees) <= b < len(self._trees):
-            raise IndexError(f"`b` = {b} is out of range for a forest of {len(self._trees)} trees")
-        return self._trees[b]
+        if not -len(trees) <= b < len(trees):
+            raise IndexError(f"`b` = {b} is out of range for a forest of {len(trees)} trees")
+        return trees[b]
 
     def regrow(self, b: int) -> Tree:
         """Grow tree ``b`` again, alone, from its own seed and the training data; equals :meth:`tree`."""
         self.tree(b)
-        b = b % len(self._trees)
-        return self._grow_checked([b], [])[0]
+        return regrow(self._data, self._grown, b % self.trees)
 
     # ----------------------------------------------------------------------------------------- prediction
     def per_tree(self, X: ArrayLike) -> NDArray:
@@ -427,98 +272,27 @@ class Forest:
 
         Class indices into :attr:`classes` (int64) for classification, values (float64) for regression.
         """
-        X = self._check_predict_X(X)
-        out = np.empty((len(self._trees), X.shape[0]), dtype=np.int64 if self.task == "classification" else None)
-        missing = bool(np.isnan(X).any())
-        for b, tree in enumerate(self._trees):  # class indices are whole numbers: exact in either type
-            out[b] = np.take(tree.value, leaf_index(tree, X, missing), mode="clip")
-        return out
+        view = self._fitted_view()
+        return tree_values(view.trees, view.coded(X), np.int64 if view.task == "classification" else np.float64)
 
     def votes(self, X: ArrayLike) -> NDArray[np.float64]:
         """Share of trees voting for each class, shape ``(n, K)`` in the order of :attr:`classes`."""
-        self._check_fitted()
-        if self.task != "classification":
+        if self._fitted_view().task != "classification":
             raise TypeError("`votes` is for classification forests; this forest does regression")
-        return _vote_shares(self.per_tree(X), self.classes.size)
+        return vote_shares(self.per_tree(X), self.classes.size)
 
     def predict(self, X: ArrayLike) -> NDArray:
         """Majority vote (ties to the lowest class index) or the mean of the trees' predictions."""
-        self._check_fitted()
-        if self.task == "classification":
+        if self._fitted_view().task == "classification":
             return self.classes[np.argmax(self.votes(X), axis=1)]
         return self.per_tree(X).mean(axis=0)
 
     # ----------------------------------------------------------------------------------------- analyses
-    def importance(self, kind: str = "permutation", *, X: ArrayLike | None = None, y: ArrayLike | None = None,
-                   groups: Any = None, names: Sequence[str] | None = None, rng: Any = None) -> Importance:
-        """Importance of every feature, or of groups of features, as a sorted-printing :class:`Importance`.
-
-        ``kind="permutation"`` (Breiman 2001, "Random forests", section 10): for every tree and feature, the
-        rise in the tree's error (misclassification rate or mean squared error) on its out-of-bag cases when
-        the feature's values are shuffled among those cases; ``scores`` is the mean over trees, ``spread`` the
-        standard deviation, ``z = scores / (spread / sqrt(trees))``. With ``X`` and ``y`` (held-out cases),
-        every tree is scored on all of them instead. ``groups`` (a mapping of name to columns, or a list of
-        column lists) shuffles a set of correlated columns together, rows kept aligned, and scores the set.
-
-        ``kind="impurity"``: every tree's weighted impurity decrease per feature as a share of the tree's
-        total, averaged over trees (the scores sum to 1). Cheap, but biased: it favours features with many
-        distinct values (many candidate thresholds) even when they are pure noise (Strobl, Boulesteix,
-        Zeileis & Hothorn 2007, "Bias in random forest variable importance measures: illustrations, sources
-        and a solution", BMC Bioinformatics 8:25). Prefer the permutation kind to compare features of
-        different types.
-
-        ``names`` label the features (default :attr:`feature_names`); ``rng`` seeds the shuffles (tree ``b``
-        draws from its own child of the seed, so results do not depend on the order of work).
-        """
-        return _importance.importance(self, kind, X=X, y=y, groups=groups, names=names, rng=rng)
-
-    def partial_dependence(self, feature: int | tuple[int, int], grid: ArrayLike | None = None, *,
-                           X: ArrayLike | None = None, label: Any = None, ice: bool = False,
-                           points: int = 25) -> Dependence:
-        """Partial dependence on one feature, or on a pair (an interaction surface), as :class:`Dependence`.
-
-        Friedman (2001), "Greedy function approximation", section 8.2: the forest's prediction averaged over
-        the cases (the training cases, or ``X``) with ``feature`` set to each ``grid`` value. For
-        classification, the share of trees voting ``label`` (default: the second class of a two-class
-        forest). ``grid`` defaults to the distinct values, or ``points`` evenly spaced quantiles, of the
-        feature; for a pair, pass one array (or None) per feature. ``ice=True`` keeps every case's curve
-        (Goldstein, Kapelner, Bleich & Pitkin 2015, "Peeking inside the black box").
-        """
-        return _dependence.partial_dependence(self, feature, grid, X=X, label=label, ice=ice, points=points)
-
-    def proximity(self, oob: bool = True, *, X: ArrayLike | None = None, block: int | None = None) -> NDArray:
-        """Share of trees in which two cases land in the same leaf: an (n, n) float64 array.
-
-        With ``oob=True`` (training cases only) a tree counts for a pair only when both cases are out-of-bag
-        for it; pairs never out-of-bag together are NaN (with an :class:`OverlapWarning`). The diagonal is 1.
-        Rows are computed ``block`` at a time from a sparse leaf-membership matrix, so the working memory
-        beyond the (n, n) result stays near ``trees x n``; n = 10 000 needs the 800 MB result and little more.
-        """
-        return _proximity.proximity(self, oob, X=X, block=block)
-
-    def outlyingness(self, oob: bool = True, *, X: ArrayLike | None = None, y: ArrayLike | None = None,
-                     block: int | None = None) -> NDArray[np.float64]:
-        """Outlier score of every case within its class (Breiman & Cutler's measure), shape (n,).
-
-        Raw score ``n / sum_k prox(i, k)^2`` over the other cases ``k`` of case ``i``'s class (all cases for
-        regression), then standardised within each class: minus the class median, divided by the class
-        median absolute deviation. Large values (common practice: above about 10) mark cases unlike the rest
-        of their class. Streams proximity blocks; the (n, n) matrix is never stored.
-        """
-        return _proximity.outlyingness(self, oob, X=X, y=y, block=block)
-
-    def proximity_map(self, dims: int = 2, *, oob: bool = True, X: ArrayLike | None = None) -> ProximityMap:
-        """Map of the cases: classical multidimensional scaling of ``1 - proximity`` (:class:`ProximityMap`)."""
-        return _proximity.proximity_map(self, dims, oob=oob, X=X)
-
-    def _check_fitted(self) -> None:
-        if not self._trees:
-            raise RuntimeError("this Forest is not fitted yet; call `fit(X, y)` first")
-
-    def _check_predict_X(self, X: ArrayLike) -> NDArray[np.float64]:
-        self._check_fitted()
-        return apply_levels(check_X(match_columns(X, self.feature_names, labels=self._frame_labels),
-                                    features=self.features), self._levels)
+    importance = hand_off(_importance.importance)
+    partial_dependence = hand_off(_dependence.partial_dependence)
+    proximity = hand_off(_proximity.proximity)
+    outlyingness = hand_off(_proximity.outlyingness)
+    proximity_map = hand_off(_proximity.proximity_map)
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
@@ -529,13 +303,22 @@ class Forest:
         grow more trees or compute out-of-bag results; without them it still predicts. Read it back with
         :func:`forestlab.load`.
         """
-        self._check_fitted()
-        save_forest(self, path, include_data=include_data)
+        stored = StoredForest(self._fitted_view(), self._settings, self._grown, self._oob)
+        write_forest(path, stored, include_data=include_data)
+
+    # ----------------------------------------------------------------------------------------- internals
+    def _fitted_view(self) -> FittedForest:
+        if self._view is None:
+            raise RuntimeError("this Forest is not fitted yet; call `fit(X, y)` first")
+        return self._view
+
+    def _clone_settings(self, rng: Any = None) -> Forest:
+        """A new, unfitted Forest with this forest's settings and the given ``rng``."""
+        return _assembled(self._settings, rng)
 
 
-def _vote_shares(per_tree: NDArray[np.int64], classes: int) -> NDArray[np.float64]:
-    """Share of rows of ``per_tree`` (trees, n) equal to each class: shape (n, classes)."""
-    trees, n = per_tree.shape
-    flat = (np.arange(n) * classes)[None, :] + per_tree
-    counts = np.bincount(flat.ravel(), minlength=n * classes).reshape(n, classes)
-    return counts / trees
+def _read_only(arr: NDArray) -> NDArray:
+    arr.flags.writeable = False
+    return arr
+
+

@@ -8,9 +8,9 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ..modelfile.persist import require_data
 from ..engine.tree import leaf_index
 from ..intake.validation import check_y
+from .view import FittedForest
 
 __all__ = ["ROW_BUDGET", "analysis_X", "analysis_y", "leaves", "mean_prediction", "row_blocks"]
 
@@ -18,17 +18,15 @@ __all__ = ["ROW_BUDGET", "analysis_X", "analysis_y", "leaves", "mean_prediction"
 ROW_BUDGET = 4_000_000
 
 
-def analysis_X(forest: Any, X: Any) -> tuple[NDArray[np.float64], bool]:
+def analysis_X(forest: FittedForest, X: Any) -> tuple[NDArray[np.float64], bool]:
     """``X`` validated and coded like the training predictors (categories as codes), or the training predictors
     themselves; the flag says which."""
-    forest._check_fitted()
     if X is None:
-        require_data(forest)
-        return forest._data.X, True
-    return forest._check_predict_X(X), False
+        return forest.training_X(), True
+    return forest.coded(X), False
 
 
-def analysis_y(forest: Any, y: Any, rows: int) -> NDArray:
+def analysis_y(forest: FittedForest, y: Any, rows: int) -> NDArray:
     """Targets encoded like the training targets (class indices or floats) for ``rows`` cases."""
     target = check_y(y, rows, forest.task)
     if forest.task == "classification":
@@ -39,10 +37,10 @@ def analysis_y(forest: Any, y: Any, rows: int) -> NDArray:
     return target.values
 
 
-def leaves(forest: Any, X: NDArray[np.float64]) -> NDArray[np.int64]:
+def leaves(forest: FittedForest, X: NDArray[np.float64]) -> NDArray[np.int64]:
     """Leaf reached by every case in every tree: shape (trees, n)."""
-    out = np.empty((len(forest._trees), X.shape[0]), dtype=np.int64)
-    for b, tree in enumerate(forest._trees):
+    out = np.empty((len(forest.trees), X.shape[0]), dtype=np.int64)
+    for b, tree in enumerate(forest.trees):
         out[b] = leaf_index(tree, X)
     return out
 
@@ -54,7 +52,7 @@ def row_blocks(rows: int, width: int, budget: int = ROW_BUDGET) -> Iterator[slic
         yield slice(start, min(rows, start + step))
 
 
-def mean_prediction(forest: Any, X: NDArray[np.float64], label: int | None) -> NDArray[np.float64]:
+def mean_prediction(forest: FittedForest, X: NDArray[np.float64], label: int | None) -> NDArray[np.float64]:
     """Mean over trees of each tree's value (regression) or share of trees voting ``label``, for every row.
 
     Works through ``X`` in row blocks, so a large stacked design never meets all trees at once.
@@ -62,7 +60,7 @@ def mean_prediction(forest: Any, X: NDArray[np.float64], label: int | None) -> N
     out = np.zeros(X.shape[0])
     for rows in row_blocks(X.shape[0], X.shape[1]):
         block = X[rows]
-        for tree in forest._trees:
+        for tree in forest.trees:
             value = tree.value[leaf_index(tree, block)]
             out[rows] += value if label is None else (value == label)
-    return out / len(forest._trees)
+    return out / len(forest.trees)

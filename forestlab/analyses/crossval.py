@@ -2,19 +2,17 @@
 
 from __future__ import annotations
 
-import numbers
-from collections.abc import Mapping
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
+from numpy.typing import NDArray
 
-from .._forest import Forest
+from ..engine.seeding import tree_seed
+from ..intake.validation import Target
 from .results import CrossValidatedError
-from ..engine.seeding import root_seed, tree_seed
-from ..intake.validation import check_X, check_y
 
-__all__ = ["cross_validated_error", "fold_assignment"]
+__all__ = ["cross_validate", "fold_assignment"]
 
 
 def fold_assignment(rng: np.random.Generator, n: int, folds: int,
@@ -33,72 +31,21 @@ def fold_assignment(rng: np.random.Generator, n: int, folds: int,
     return fold
 
 
-def _template(forest_or_settings: Any) -> Forest:
-    if isinstance(forest_or_settings, Forest):
-        return forest_or_settings
-    if isinstance(forest_or_settings, Mapping):
-        if "rng" in forest_or_settings:
-            raise ValueError("`forest_or_settings` must not hold `rng`; pass `rng` to cross_validated_error")
-        try:
-            return Forest(**forest_or_settings)
-        except TypeError as exc:
-            raise TypeError(f"`forest_or_settings` is not a valid set of Forest arguments: {exc}") from None
-    raise TypeError("`forest_or_settings` must be a Forest (fitted or not) or a mapping of Forest arguments; "
-                    f"got {type(forest_or_settings).__name__}")
-
-
-def cross_validated_error(forest_or_settings: Forest | Mapping[str, Any], X: ArrayLike, y: ArrayLike,
-                          folds: int = 10, *, rng: Any = None) -> CrossValidatedError:
-    """k-fold cross-validated error of a forest's settings, to check the out-of-bag error against.
-
-    Each fold is held out once while a forest with the same settings is grown on the other folds; its
-    misclassification rate (or mean squared error) on the held-out fold is the fold error. Classification
-    folds are stratified by class.
-
-    Parameters
-    ----------
-    forest_or_settings : Forest or mapping
-        A Forest, fitted or not (only its settings are used; it is not changed), or the keyword arguments
-        of :class:`Forest` (without ``rng``).
-    X : array-like, shape (n, p)
-    y : array-like, shape (n,)
-    folds : int, default 10
-        Number of folds, from 2 to n.
-    rng : None, int, numpy.random.SeedSequence or numpy.random.Generator
-        Source of the fold split and of every fold's forest (child 0 of one root SeedSequence draws the
-        folds, child ``j + 1`` seeds the forest of fold ``j``); a given forest's own ``rng`` is not used.
-
-    Returns
-    -------
-    CrossValidatedError
-
-    Examples
-    --------
-    >>> import forestlab as fl
-    >>> from forestlab.synthetic import twonorm
-    >>> X, y = twonorm(200, rng=3)
-    >>> cv = fl.cross_validated_error(fl.Forest(trees=25), X, y, folds=5, rng=1)
-    >>> cv.fold_errors.shape, bool(0 <= cv.mean <= 1)
-    ((5,), True)
-    """
-    template = _template(forest_or_settings)
-    X = check_X(X)
-    target = check_y(y, X.shape[0], template._task_for())
+def cross_validate(grow: Callable[[np.random.SeedSequence, NDArray, NDArray], Any], X: NDArray[np.float64],
+                   target: Target, folds: int, root: np.random.SeedSequence) -> CrossValidatedError:
+    """k-fold cross-validated error: ``grow(seed, X_train, y_train)`` must return a fitted forest (anything
+    with ``predict``); ``root``'s child 0 draws the folds (stratified by class for classification) and child
+    ``j + 1`` seeds the forest of fold ``j``. See :func:`forestlab.cross_validated_error`."""
     n = X.shape[0]
-    if isinstance(folds, (bool, np.bool_)) or not isinstance(folds, numbers.Integral):
-        raise TypeError(f"`folds` must be an int; got {type(folds).__name__}")
-    if not 2 <= folds <= n:
-        raise ValueError(f"`folds` must lie between 2 and the number of cases ({n}); got {folds}")
-    root = root_seed(rng)
     classification = target.task == "classification"
     labels = target.classes[target.values] if classification else target.values
-    fold = fold_assignment(np.random.default_rng(tree_seed(root, 0)), n, int(folds),
+    fold = fold_assignment(np.random.default_rng(tree_seed(root, 0)), n, folds,
                            target.values if classification else None)
     predictions = np.empty(n, dtype=labels.dtype)
-    errors = np.empty(int(folds))
-    for j in range(int(folds)):
+    errors = np.empty(folds)
+    for j in range(folds):
         held = fold == j
-        forest = template._clone_settings(rng=tree_seed(root, j + 1)).fit(X[~held], labels[~held])
+        forest = grow(tree_seed(root, j + 1), X[~held], labels[~held])
         predictions[held] = forest.predict(X[held])
         miss = predictions[held] != labels[held] if classification else (predictions[held] - labels[held]) ** 2
         errors[j] = float(np.mean(miss))

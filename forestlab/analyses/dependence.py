@@ -16,6 +16,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .cases import ROW_BUDGET, analysis_X, mean_prediction
+from .view import FittedForest
 
 __all__ = ["Dependence", "partial_dependence"]
 
@@ -54,18 +55,44 @@ class Dependence:
                 f"ice={'yes' if self.ice is not None else 'no'})")
 
 
-def partial_dependence(forest: Any, feature: Any, grid: Any = None, *, X: Any = None, label: Any = None,
-                       ice: bool = False, points: int = 25) -> Dependence:
-    """Partial dependence of a fitted forest's prediction; see :meth:`Forest.partial_dependence`."""
+def partial_dependence(forest: FittedForest, feature: Any, grid: Any = None, *, X: Any = None,
+                       label: Any = None, ice: bool = False, points: int = 25) -> Dependence:
+    """Partial dependence on one feature, or on a pair (an interaction surface), as :class:`Dependence`.
+
+    Called as ``forest.partial_dependence(...)``. Friedman (2001), "Greedy function approximation", section
+    8.2: the forest's prediction averaged over the cases (the training cases, or ``X``) with ``feature`` set
+    to each ``grid`` value.
+
+    Parameters
+    ----------
+    feature : int, str, or a pair of them
+        The column(s), by position or name.
+    grid : array-like, or one per feature for a pair, optional
+        Values to set the feature to; default the distinct values, or ``points`` evenly spaced quantiles, of
+        the feature (all categories of a categorical feature).
+    X : array-like, optional
+        The cases to average over (default: the training cases).
+    label : optional
+        Classification: the class whose vote share is shown (default: the second class of a two-class
+        forest).
+    ice : bool, default False
+        Keep every case's curve (Goldstein, Kapelner, Bleich & Pitkin 2015, "Peeking inside the black box").
+    points : int, default 25
+        Grid size when the grid is made from quantiles.
+
+    Returns
+    -------
+    Dependence
+    """
     data, _ = analysis_X(forest, X)
-    features = _check_features(feature, data.shape[1], getattr(forest, "feature_names", None))
+    features = _check_features(feature, data.shape[1], forest.feature_names)
     if not isinstance(ice, (bool, np.bool_)):
         raise TypeError(f"`ice` must be True or False; got {type(ice).__name__}")
     if ice and len(features) != 1:
         raise ValueError("`ice` curves are drawn for one feature; pass a single `feature`")
     if isinstance(points, (bool, np.bool_)) or not isinstance(points, numbers.Integral) or points < 2:
         raise ValueError(f"`points` must be an int of at least 2; got {points!r}")
-    levels = getattr(forest, "_levels", {})
+    levels = forest.levels
     grids = _check_grid(grid, data, features, int(points), levels)
     coded = tuple(_category_codes(g, levels[f], f) if f in levels else g for f, g in zip(features, grids))
     code = _check_label(forest, label)
@@ -139,7 +166,7 @@ def _default_grid(x: NDArray, points: int) -> NDArray[np.float64]:
     return np.unique(np.quantile(x, np.linspace(0.0, 1.0, points)))
 
 
-def _check_label(forest: Any, label: Any) -> int | None:
+def _check_label(forest: FittedForest, label: Any) -> int | None:
     if forest.task == "regression":
         if label is not None:
             raise ValueError("`label` is for classification forests; this forest does regression")
@@ -155,7 +182,8 @@ def _check_label(forest: Any, label: Any) -> int | None:
     return int(hits[0])
 
 
-def _per_case(forest: Any, X: NDArray, features: tuple[int, ...], settings: NDArray, code: int | None) -> NDArray:
+def _per_case(forest: FittedForest, X: NDArray, features: tuple[int, ...], settings: NDArray,
+              code: int | None) -> NDArray:
     """Prediction for every (grid setting, case): shape (settings, n), a block of settings at a time."""
     n, p = X.shape
     cols = list(features)

@@ -17,9 +17,10 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from .cases import ROW_BUDGET, analysis_X, analysis_y
 from ..engine.seeding import root_seed, tree_generator
 from ..engine.tree import Tree, leaf_index
+from .cases import ROW_BUDGET, analysis_X, analysis_y
+from .view import FittedForest
 
 __all__ = ["Importance", "importance"]
 
@@ -90,24 +91,53 @@ class Importance:
     __repr__ = __str__
 
 
-def importance(forest: Any, kind: str = "permutation", *, X: Any = None, y: Any = None, groups: Any = None,
-               names: Sequence[str] | None = None, rng: Any = None) -> Importance:
-    """Importance of every feature or group of features of a fitted forest; see :meth:`Forest.importance`."""
-    forest._check_fitted()
+def importance(forest: FittedForest, kind: str = "permutation", *, X: Any = None, y: Any = None,
+               groups: Any = None, names: Sequence[str] | None = None, rng: Any = None) -> Importance:
+    """Importance of every feature, or of groups of features, as a sorted-printing :class:`Importance`.
+
+    Called as ``forest.importance(...)``. ``kind="permutation"`` (Breiman 2001, "Random forests", section
+    10): for every tree and feature, the rise in the tree's error (misclassification rate or mean squared
+    error) on its out-of-bag cases when the feature's values are shuffled among those cases; ``scores`` is
+    the mean over trees, ``spread`` the standard deviation, ``z = scores / (spread / sqrt(trees))``.
+
+    ``kind="impurity"``: every tree's weighted impurity decrease per feature as a share of the tree's total,
+    averaged over trees (the scores sum to 1). Cheap, but biased: it favours features with many distinct
+    values (many candidate thresholds) even when they are pure noise (Strobl, Boulesteix, Zeileis & Hothorn
+    2007, "Bias in random forest variable importance measures: illustrations, sources and a solution", BMC
+    Bioinformatics 8:25). Prefer the permutation kind to compare features of different types.
+
+    Parameters
+    ----------
+    kind : {"permutation", "impurity"}
+        Which importance.
+    X, y : array-like, optional
+        Held-out cases (permutation kind): every tree is scored on all of them instead of its OOB cases.
+    groups : mapping of name to columns, or sequence of column lists, optional
+        Shuffle a set of correlated columns together, rows kept aligned, and score the set.
+    names : sequence of str, optional
+        Labels of the features (default: the forest's ``feature_names``).
+    rng : None, int, SeedSequence or Generator
+        Seeds the shuffles; tree ``b`` draws from its own child of the seed, so results do not depend on
+        the order of work.
+
+    Returns
+    -------
+    Importance
+    """
     if not isinstance(kind, str) or kind not in KINDS:
         raise ValueError(f"`kind` must be one of {list(KINDS)}; got {kind!r}")
-    labels = _check_names(names, forest.features, getattr(forest, "feature_names", None))
+    labels = _check_names(names, forest.features, forest.feature_names)
     columns, entry_names = _check_groups(groups, labels)
     if kind == "impurity":
         if X is not None or y is not None:
             raise ValueError("`X` and `y` are only used by kind='permutation'; impurity importance reads the trees")
-        per_tree = _impurity_shares(forest._trees, forest.features, columns)
+        per_tree = _impurity_shares(forest.trees, forest.features, columns)
         measure = "share of the weighted impurity decrease, averaged over trees (sums to 1)"
     else:
         if (X is None) != (y is None):
             raise ValueError("pass both `X` and `y` (held-out cases), or neither (the training cases, out-of-bag)")
         data, training = analysis_X(forest, X)
-        target = forest._data.target if training else analysis_y(forest, y, data.shape[0])
+        target = forest.y if training else analysis_y(forest, y, data.shape[0])
         oob = forest.inbag == 0 if training else None
         per_tree = _permutation_rises(forest, data, target, oob, columns, root_seed(rng))
         error = "misclassification rate" if forest.task == "classification" else "mean squared error"
@@ -177,11 +207,11 @@ def _impurity_shares(trees: list[Tree], features: int, columns: tuple[tuple[int,
     return out
 
 
-def _permutation_rises(forest: Any, X: NDArray, y: NDArray, oob: NDArray | None,
+def _permutation_rises(forest: FittedForest, X: NDArray, y: NDArray, oob: NDArray | None,
                        columns: tuple[tuple[int, ...], ...], root: np.random.SeedSequence) -> NDArray:
     """Rise in every tree's error on its evaluation cases when each entry's columns are shuffled."""
-    out = np.full((len(forest._trees), len(columns)), np.nan)
-    for b, tree in enumerate(forest._trees):
+    out = np.full((len(forest.trees), len(columns)), np.nan)
+    for b, tree in enumerate(forest.trees):
         rows = np.flatnonzero(oob[b]) if oob is not None else np.arange(X.shape[0])
         if rows.size < 2:
             continue

@@ -23,10 +23,11 @@ from dataclasses import dataclass, replace
 import numpy as np
 from numpy.typing import NDArray
 
-from .results import OutOfBag
+from .._warnings import NeverOutOfBagWarning
 from ..engine.tree import Tree, leaf_index, stacked_leaf_values
 from ..intake.validation import Target
-from .._warnings import NeverOutOfBagWarning
+from .results import OutOfBag
+from .view import FittedForest
 
 __all__ = ["out_of_bag"]
 
@@ -70,31 +71,21 @@ def oob_entries(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float
 _PAIRS = 1 << 19  # (tree, row) pairs pushed down one tree block together (a few MB of working arrays)
 
 
-def out_of_bag(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float64], target: Target,
-               stacklevel: int = 1, weights: NDArray[np.float64] | None = None) -> OutOfBag:
-    """Compute every OOB result of a fitted forest (see :class:`OutOfBag`).
+def out_of_bag(forest: FittedForest, stacklevel: int = 1) -> OutOfBag:
+    """Compute every OOB result of a fitted forest (see :class:`OutOfBag`; ``forest.oob`` caches it).
 
-    Parameters
-    ----------
-    trees : list of Tree
-        The forest's trees, in seed order.
-    inbag : ndarray of uint8, shape (trees, n)
-        Their bootstrap counts; case ``i`` is OOB for tree ``b`` when ``inbag[b, i] == 0``.
-    X : ndarray of float64, shape (n, p)
-        The training predictors.
-    target : Target
-        The validated training targets.
-    stacklevel : int, default 1
-        Frame the warning points at, counted from the caller of this function.
-    weights : ndarray of float64, shape (n,), optional
-        Case weights: the error, its curve, the confusion matrix and the per-class errors are weighted
-        means / sums over the covered cases. Votes and margins are not weighted.
+    Case weights, when the forest has them, weigh the error, its curve, the confusion matrix and the
+    per-class errors (weighted means / sums over the covered cases); votes and margins are not weighted.
+    ``stacklevel`` is the frame the warning points at, counted from the caller of this function. Needs the
+    training data (a RuntimeError otherwise).
 
     Warns
     -----
     NeverOutOfBagWarning
         When some case was in every bootstrap sample.
     """
+    X, target, weights = forest.training_X(), forest.target, forest.case_weights
+    trees, inbag = list(forest.trees), forest.inbag
     entries = oob_entries(trees, inbag, X)
     n = X.shape[0]
     if target.task == "classification":

@@ -21,8 +21,9 @@ import scipy.sparse
 import scipy.sparse.linalg
 from numpy.typing import NDArray
 
-from .cases import ROW_BUDGET, analysis_X, analysis_y, leaves, row_blocks
 from .._warnings import OverlapWarning
+from .cases import ROW_BUDGET, analysis_X, analysis_y, leaves, row_blocks
+from .view import FittedForest
 
 __all__ = ["ProximityMap", "classical_scaling", "outlyingness", "proximity", "proximity_blocks",
            "proximity_map"]
@@ -69,19 +70,19 @@ def _check_block(block: Any, n: int) -> int:
     return int(block)
 
 
-def _leaf_indicator(forest: Any, X: NDArray, weights: NDArray | None) -> scipy.sparse.csr_matrix:
+def _leaf_indicator(forest: FittedForest, X: NDArray, weights: NDArray | None) -> scipy.sparse.csr_matrix:
     """Sparse (n, total leaves) matrix with ``weights[b, i]`` (or 1) at (i, leaf of case i in tree b)."""
     where = leaves(forest, X)
-    offsets = np.cumsum([0] + [tree.nodes for tree in forest._trees[:-1]])
+    offsets = np.cumsum([0] + [tree.nodes for tree in forest.trees[:-1]])
     cols = (where + offsets[:, None]).T.ravel()
     data = np.ones(cols.size) if weights is None else weights.T.astype(np.float64).ravel()
-    n, trees = X.shape[0], len(forest._trees)
+    n, trees = X.shape[0], len(forest.trees)
     indptr = np.arange(0, n * trees + 1, trees)
-    total = int(offsets[-1] + forest._trees[-1].nodes)
+    total = int(offsets[-1] + forest.trees[-1].nodes)
     return scipy.sparse.csr_matrix((data, cols, indptr), shape=(n, total))
 
 
-def proximity_blocks(forest: Any, X: NDArray, oob: bool, block: int) -> Iterator[tuple[slice, NDArray]]:
+def proximity_blocks(forest: FittedForest, X: NDArray, oob: bool, block: int) -> Iterator[tuple[slice, NDArray]]:
     """Consecutive row blocks ``(rows, P[rows])`` of the proximity matrix, each of shape (rows, n).
 
     Pairs never out-of-bag together (``oob=True``) get NaN; the diagonal is 1.
@@ -99,13 +100,20 @@ def proximity_blocks(forest: Any, X: NDArray, oob: bool, block: int) -> Iterator
             with np.errstate(divide="ignore", invalid="ignore"):
                 P = np.where(both > 0, shared / np.where(both > 0, both, 1.0), np.nan)
         else:
-            P = shared / len(forest._trees)
+            P = shared / len(forest.trees)
         P[np.arange(P.shape[0]), np.arange(rows.start, rows.stop)] = 1.0
         yield rows, P
 
 
-def proximity(forest: Any, oob: bool = True, *, X: Any = None, block: Any = None) -> NDArray[np.float64]:
-    """The (n, n) proximity matrix of a fitted forest; see :meth:`Forest.proximity`."""
+def proximity(forest: FittedForest, oob: bool = True, *, X: Any = None, block: Any = None) -> NDArray[np.float64]:
+    """Share of trees in which two cases land in the same leaf: an (n, n) float64 array.
+
+    Called as ``forest.proximity(...)``. With ``oob=True`` (training cases only) a tree counts for a pair
+    only when both cases are out-of-bag for it; pairs never out-of-bag together are NaN (with an
+    :class:`OverlapWarning`). The diagonal is 1. Rows are computed ``block`` at a time from a sparse
+    leaf-membership matrix, so the working memory beyond the (n, n) result stays near ``trees x n``;
+    n = 10 000 needs the 800 MB result and little more. ``X`` gives other cases (then ``oob=False``).
+    """
     oob = _check_bool(oob, "oob")
     data, training = analysis_X(forest, X)
     if oob and not training:
@@ -121,9 +129,16 @@ def proximity(forest: Any, oob: bool = True, *, X: Any = None, block: Any = None
     return out
 
 
-def outlyingness(forest: Any, oob: bool = True, *, X: Any = None, y: Any = None,
+def outlyingness(forest: FittedForest, oob: bool = True, *, X: Any = None, y: Any = None,
                  block: Any = None) -> NDArray[np.float64]:
-    """Standardised outlyingness of every case within its class; see :meth:`Forest.outlyingness`."""
+    """Outlier score of every case within its class (Breiman & Cutler's measure), shape (n,).
+
+    Called as ``forest.outlyingness(...)``. Raw score ``n / sum_k prox(i, k)^2`` over the other cases ``k``
+    of case ``i``'s class (all cases for regression), then standardised within each class: minus the class
+    median, divided by the class median absolute deviation. Large values (common practice: above about 10)
+    mark cases unlike the rest of their class. Streams proximity blocks; the (n, n) matrix is never stored.
+    With new ``X``, ``y`` gives their classes.
+    """
     oob = _check_bool(oob, "oob")
     data, training = analysis_X(forest, X)
     if oob and not training:
@@ -136,7 +151,7 @@ def outlyingness(forest: Any, oob: bool = True, *, X: Any = None, y: Any = None,
     elif training:
         if y is not None:
             raise ValueError("pass `y` only together with new `X`; the training labels are used otherwise")
-        codes = forest._data.target
+        codes = forest.y
     else:
         if y is None:
             raise ValueError("`y` (the class of every case) is needed with new `X`")
@@ -144,7 +159,7 @@ def outlyingness(forest: Any, oob: bool = True, *, X: Any = None, y: Any = None,
     return _standardise(_raw_outlyingness(forest, data, codes, oob, _check_block(block, n)), codes)
 
 
-def _raw_outlyingness(forest: Any, X: NDArray, codes: NDArray, oob: bool, block: int) -> NDArray:
+def _raw_outlyingness(forest: FittedForest, X: NDArray, codes: NDArray, oob: bool, block: int) -> NDArray:
     """``n / sum_k prox(i, k)^2`` over the other cases k of case i's class (inf when that sum is 0)."""
     n = X.shape[0]
     member = np.zeros((n, int(codes.max()) + 1))
@@ -171,8 +186,11 @@ def _standardise(raw: NDArray, codes: NDArray) -> NDArray:
     return out
 
 
-def proximity_map(forest: Any, dims: int = 2, *, oob: bool = True, X: Any = None) -> ProximityMap:
-    """Classical scaling of ``1 - proximity``; see :meth:`Forest.proximity_map`."""
+def proximity_map(forest: FittedForest, dims: int = 2, *, oob: bool = True, X: Any = None) -> ProximityMap:
+    """Map of the cases: classical multidimensional scaling of ``1 - proximity`` (:class:`ProximityMap`).
+
+    Called as ``forest.proximity_map(...)``; ``oob`` and ``X`` as for :func:`proximity`.
+    """
     oob = _check_bool(oob, "oob")
     data, _ = analysis_X(forest, X)
     _check_dims(dims, data.shape[0])

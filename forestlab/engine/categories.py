@@ -1,4 +1,6 @@
-"""Categorical predictors: codes, the per-node category order, and left-category sets.
+"""Categorical predictors in the engine: the per-node category order and left-category sets.
+
+Columns arrive as codes ``0..k-1`` (NaN missing): :mod:`forestlab.intake.categories` codes them.
 
 A categorical feature splits on a *subset* of its categories. Within each node the categories present are
 ordered by the class-1 share (two classes) or the mean response (regression), and the split points of that
@@ -20,48 +22,12 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["MAX_CATEGORIES", "encode_columns", "apply_levels", "category_order", "left_sets", "in_left_set",
-           "words_for"]
-
-MAX_CATEGORIES = 1024
+__all__ = ["category_order", "in_left_set", "left_sets", "words_for"]
 
 
 def words_for(categories: int) -> int:
     """uint64 words needed for a bit set over ``categories`` categories."""
     return -(-int(categories) // 64)
-
-
-def encode_columns(X: NDArray[np.float64], columns: list[int]) -> tuple[NDArray[np.float64], dict[int, NDArray]]:
-    """Replace each categorical column by codes ``0..k-1`` (NaN stays NaN); returns the levels and ``X`` (a copy
-    only when there are categorical columns)."""
-    if not columns:
-        return X, {}
-    X = X.copy()
-    levels: dict[int, NDArray] = {}
-    for j in columns:
-        col = X[:, j]
-        present = ~np.isnan(col)
-        values = np.unique(col[present])
-        if values.size > MAX_CATEGORIES:
-            raise ValueError(f"categorical column {j} has {values.size} categories; at most {MAX_CATEGORIES} "
-                             "are supported (treat it as numeric, or group rare categories)")
-        col[present] = np.searchsorted(values, col[present])
-        levels[j] = values
-    return X, levels
-
-
-def apply_levels(X: NDArray[np.float64], levels: dict[int, NDArray]) -> NDArray[np.float64]:
-    """Training codes for new data; a value not seen in training becomes NaN (it follows missing values)."""
-    if not levels:
-        return X
-    X = X.copy()
-    for j, values in levels.items():
-        col = X[:, j]
-        present = np.flatnonzero(~np.isnan(col))
-        pos = np.minimum(np.searchsorted(values, col[present]), values.size - 1)
-        known = values[pos] == col[present]
-        col[present] = np.where(known, pos, np.nan)
-    return X
 
 
 def category_order(weight: NDArray[np.float64], response: NDArray[np.float64],

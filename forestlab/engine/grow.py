@@ -14,12 +14,12 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from .fast_search import FastPath, fast_path
 from .bootstrap import draw_counts
+from .fast_search import FastPath, fast_path
 from .presort import TrainingData
 from .sampler import CandidateSampler, draw_masks
-from .splitter import CartSplitter
 from .search import Items, Splits, best_splits, checked_impurity
+from .splitter import CartSplitter
 from .tree import NODE_STORAGE, Tree, goes_right
 from .workspace import Workspace
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -9,7 +10,7 @@ from numpy.typing import NDArray
 
 from .categories import in_left_set
 
-__all__ = ["NODE_STORAGE", "Tree", "goes_right", "leaf_index", "stacked_leaf_values"]
+__all__ = ["NODE_STORAGE", "Tree", "goes_right", "leaf_index", "stacked_leaf_values", "tree_values"]
 
 
 def _read_only(arr: NDArray) -> NDArray:
@@ -197,6 +198,15 @@ def _descend_from(step, flat: NDArray[np.float64], base: NDArray[np.intp], here:
 
 
 _COMPACT_EVERY = 2
+
+
+def tree_values(trees: Sequence[Tree], X: NDArray[np.float64], dtype: type) -> NDArray:
+    """Every tree's value (class index or mean) at the leaf every row of ``X`` reaches: shape (trees, n)."""
+    out = np.empty((len(trees), X.shape[0]), dtype=dtype)
+    missing = bool(np.isnan(X).any())
+    for b, tree in enumerate(trees):  # class indices are whole numbers: exact in either type
+        out[b] = np.take(tree.value, leaf_index(tree, X, missing), mode="clip")
+    return out
 
 
 def stacked_leaf_values(trees: list[Tree], tree_of: NDArray[np.intp], row: NDArray[np.intp],

@@ -1,4 +1,8 @@
-"""A fingerprint of the training data, so that more trees are only ever grown on the same data."""
+"""A fingerprint of the training data as the trees saw them, so more trees are only grown on the same data.
+
+The same digest is written in every model file (header field ``fingerprint``) and checked when a file's
+stored training data are read back, so its bytes must not change: see ``docs/file-format.md``.
+"""
 
 from __future__ import annotations
 
@@ -7,31 +11,24 @@ import hashlib
 import numpy as np
 from numpy.typing import NDArray
 
-from .validation import Target
-
-__all__ = ["data_fingerprint", "check_same_data"]
-
-_BLOCK_BYTES = 1 << 20
+__all__ = ["check_same_data", "data_fingerprint"]
 
 
-def data_fingerprint(X: NDArray[np.float64], target: Target) -> str:
-    """sha256 of the shape, the validated ``X`` (NaN and -0.0 made canonical), the task, target codes and labels."""
-    h = hashlib.sha256()
-    h.update(repr((X.shape, target.task)).encode())
-    rows = max(1, _BLOCK_BYTES // max(1, 8 * X.shape[1]))
-    for lo in range(0, X.shape[0], rows):  # in row blocks: no copy of the whole of X
-        canonical = np.ascontiguousarray(X[lo:lo + rows], dtype=np.float64) + 0.0   # -0.0 and 0.0 split alike
-        canonical[np.isnan(canonical)] = np.nan                                    # one bit pattern for NaN
-        h.update(canonical.data)
-    h.update(np.ascontiguousarray(target.values).tobytes())
-    if target.classes is not None:
-        h.update(repr(target.classes.tolist()).encode())
-    return h.hexdigest()
+def data_fingerprint(X: NDArray[np.float64], target: NDArray, weights: NDArray[np.float64] | None) -> str:
+    """SHA-256 (hex) of the training data: shapes, then the bytes of ``X`` (category columns as codes), the
+    encoded targets (class indices or values) and the case weights."""
+    digest = hashlib.sha256(b"forestlab-data-1")
+    for part in (np.ascontiguousarray(X, dtype="<f8"), np.ascontiguousarray(target),
+                 np.ascontiguousarray(np.empty(0) if weights is None else weights, dtype="<f8")):
+        digest.update(repr((part.dtype.str, part.shape)).encode())
+        digest.update(part.tobytes())
+    return digest.hexdigest()
 
 
-def check_same_data(expected: str, fit_shape: tuple[int, int], X: NDArray[np.float64], target: Target) -> None:
-    """Raise ValueError unless ``X`` and ``target`` have the fingerprint ``expected`` of the fit data."""
-    if data_fingerprint(X, target) == expected:
+def check_same_data(expected: str, fit_shape: tuple[int, int], X: NDArray[np.float64], target: NDArray,
+                    weights: NDArray[np.float64] | None) -> None:
+    """Raise ValueError unless ``X``, ``target`` and ``weights`` have the fingerprint ``expected``."""
+    if data_fingerprint(X, target, weights) == expected:
         return
     what = (f"`X` has shape {X.shape}, the fit data {fit_shape}" if X.shape != fit_shape
             else "the values of `X` or `y` differ from the fit data")

@@ -1,11 +1,11 @@
-"""Input validation: every public entry point checks its arguments here, before any work.
+"""Data validation: predictors, targets and a splitter's output are checked here, before any work.
 
-Messages name the argument in backticks and state the rule, so the text is stable and searchable.
+Messages name the argument in backticks and state the rule, so the text is stable and searchable. The
+constructor arguments of a Forest are checked in :mod:`.settings`.
 """
 
 from __future__ import annotations
 
-import concurrent.futures
 import numbers
 import warnings
 from dataclasses import dataclass
@@ -14,117 +14,19 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ..engine.sampler import CandidateSampler, RandomSubset, _check_size
-from ..engine.splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from .._warnings import SingleClassWarning
-from .weights import check_balance, check_class_weights
+from ..engine.splitter import CartSplitter
 
-__all__ = ["Settings", "check_settings", "check_X", "check_y", "Target", "check_splitter_output",
-           "resolve_categorical"]
-
-SPLITTER_NAMES = {"entropy": EntropySplitter, "gini": GiniSplitter, "squared_error": SquaredErrorSplitter}
+__all__ = ["Target", "check_X", "check_splitter_output", "check_y", "int_at_least", "resolve_categorical"]
 
 
-@dataclass(frozen=True)
-class Settings:
-    """The validated constructor arguments of a Forest (task-dependent defaults still unresolved)."""
-
-    trees: int
-    sampler: CandidateSampler
-    splitter: CartSplitter | None
-    min_leaf: float | None
-    depth_limit: int | None
-    sample_size: int | float | None
-    replace: bool
-    task: str | None
-    workers: int
-    categorical: tuple[int | str, ...] | None = None
-    balance: str | None = None
-    class_weights: dict | str | None = None
-    executor: concurrent.futures.Executor | None = None
-    progress: Any = None
-
-
-def _int_at_least(value: Any, name: str, low: int) -> int:
+def int_at_least(value: Any, name: str, low: int) -> int:
+    """``value`` as an int of at least ``low``; a TypeError or ValueError naming the argument otherwise."""
     if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Integral):
         raise TypeError(f"`{name}` must be an int; got {type(value).__name__}")
     if value < low:
         raise ValueError(f"`{name}` must be at least {low}; got {value}")
     return int(value)
-
-
-def _check_sampler(sampler: Any) -> CandidateSampler:
-    if sampler is None:
-        return RandomSubset(None)
-    if isinstance(sampler, CandidateSampler):
-        return sampler
-    if isinstance(sampler, type) and issubclass(sampler, CandidateSampler):
-        raise TypeError(f"`sampler` must be a sampler instance such as {sampler.__name__}(); got the class")
-    if isinstance(sampler, (str, numbers.Real)) and not isinstance(sampler, (bool, np.bool_)):
-        return RandomSubset(_check_size(sampler, "sampler"))
-    raise TypeError(
-        "`sampler` must be a CandidateSampler (AllFeatures(), RandomSubset(m), TreeSubspace(m)), "
-        f"a candidate count, a fraction, 'sqrt' or 'log2'; got {type(sampler).__name__}"
-    )
-
-
-def _check_splitter(splitter: Any) -> CartSplitter | None:
-    if splitter is None or isinstance(splitter, CartSplitter):
-        if splitter is not None and getattr(splitter, "task", None) not in TASKS:
-            raise TypeError(
-                f"{type(splitter).__name__} must set the class attribute `task` to one of {sorted(TASKS)}"
-            )
-        return splitter
-    if isinstance(splitter, str):
-        if splitter not in SPLITTER_NAMES:
-            raise ValueError(f"`splitter` must be one of {sorted(SPLITTER_NAMES)} or a CartSplitter; got {splitter!r}")
-        return SPLITTER_NAMES[splitter]()
-    if isinstance(splitter, type) and issubclass(splitter, CartSplitter):
-        raise TypeError(f"`splitter` must be a splitter instance such as {splitter.__name__}(); got the class")
-    raise TypeError(f"`splitter` must be a CartSplitter or one of {sorted(SPLITTER_NAMES)}; "
-                    f"got {type(splitter).__name__}")
-
-
-def _check_sample_size(value: Any) -> int | float | None:
-    if value is None:
-        return None
-    if isinstance(value, (bool, np.bool_)):
-        raise TypeError("`sample_size` must be an int, a fraction in (0, 1] or None; got a bool")
-    if isinstance(value, numbers.Integral):
-        return _int_at_least(value, "sample_size", 1)
-    if isinstance(value, numbers.Real):
-        if not 0.0 < float(value) <= 1.0:
-            raise ValueError(f"`sample_size` must lie in (0, 1] when a fraction; got {value}")
-        return float(value)
-    raise TypeError(f"`sample_size` must be an int, a fraction in (0, 1] or None; got {type(value).__name__}")
-
-
-def _check_min_leaf(value: Any) -> float | None:
-    if value is None:
-        return None
-    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
-        raise TypeError(f"`min_leaf` must be a positive number; got {type(value).__name__}")
-    if not np.isfinite(value) or value <= 0:
-        raise ValueError(f"`min_leaf` must be a positive finite number; got {value}")
-    return float(value)
-
-
-def _check_categorical(value: Any) -> tuple[int | str, ...] | None:
-    if value is None:
-        return None
-    if isinstance(value, (str, numbers.Integral)):
-        value = [value]
-    try:
-        entries = tuple(value)
-    except TypeError:
-        raise TypeError(f"`categorical` must be a sequence of column positions or names; got "
-                        f"{type(value).__name__}") from None
-    for entry in entries:
-        if isinstance(entry, (bool, np.bool_)) or not isinstance(entry, (numbers.Integral, str)):
-            raise TypeError(f"`categorical` entries must be int positions or str names; got {entry!r}")
-    if len(set(entries)) != len(entries):
-        raise ValueError(f"`categorical` lists a column twice: {list(entries)}")
-    return tuple(e if isinstance(e, str) else int(e) for e in entries)
 
 
 def resolve_categorical(spec: tuple[int | str, ...] | None, features: int,
@@ -150,67 +52,6 @@ def resolve_categorical(spec: tuple[int | str, ...] | None, features: int,
     if len(set(positions)) != len(positions):
         raise ValueError(f"`categorical` lists a column twice: {list(spec)}")
     return sorted(set(positions) | set(extra))
-
-
-MSG_WORKERS_AND_EXECUTOR = (
-    "`workers` and `executor` are exclusive: give `workers` to grow trees in that many local processes, or "
-    "`executor` to grow them on an executor of your own (a cluster's included), not both; got workers={} "
-    "and executor={!r}"
-)
-
-
-def _check_executor(executor: Any, workers: int) -> concurrent.futures.Executor | None:
-    if executor is None:
-        return None
-    if isinstance(executor, type) and issubclass(executor, concurrent.futures.Executor):
-        raise TypeError(f"`executor` must be an executor instance such as {executor.__name__}(); got the class")
-    if not isinstance(executor, concurrent.futures.Executor):
-        raise TypeError("`executor` must be a concurrent.futures.Executor (a ProcessPoolExecutor, a "
-                        f"ThreadPoolExecutor, a dask client's get_executor(), ...) or None; got "
-                        f"{type(executor).__name__}")
-    if workers != 1:
-        raise ValueError(MSG_WORKERS_AND_EXECUTOR.format(workers, executor))
-    return executor
-
-
-def _check_progress(progress: Any) -> Any:
-    if progress is None or isinstance(progress, bool) or callable(progress):
-        return progress
-    raise TypeError("`progress` must be None, True (a progress line on stderr) or a callable "
-                    f"progress(done, total); got {type(progress).__name__}")
-
-
-def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth_limit: Any,
-                   sample_size: Any, replace: Any, task: Any, workers: Any, categorical: Any = None,
-                   balance: Any = None, class_weights: Any = None, executor: Any = None,
-                   progress: Any = None) -> Settings:
-    """Validate the Forest constructor arguments."""
-    if task is not None and task not in TASKS:
-        raise ValueError(f"`task` must be one of {sorted(TASKS)} or None; got {task!r}")
-    if not isinstance(replace, (bool, np.bool_)):
-        raise TypeError(f"`replace` must be a bool; got {type(replace).__name__}")
-    workers = _int_at_least(workers, "workers", 1)
-    settings = Settings(
-        trees=_int_at_least(trees, "trees", 1),
-        sampler=_check_sampler(sampler),
-        splitter=_check_splitter(splitter),
-        min_leaf=_check_min_leaf(min_leaf),
-        depth_limit=None if depth_limit is None else _int_at_least(depth_limit, "depth_limit", 0),
-        sample_size=_check_sample_size(sample_size),
-        replace=bool(replace),
-        task=task,
-        workers=workers,
-        categorical=_check_categorical(categorical),
-        balance=check_balance(balance),
-        class_weights=check_class_weights(class_weights),
-        executor=_check_executor(executor, workers),
-        progress=_check_progress(progress),
-    )
-    if task == "regression" and (settings.balance is not None or settings.class_weights is not None):
-        raise ValueError("`balance` and `class_weights` are for classification, but `task` is 'regression'")
-    if settings.splitter is not None and task is not None and settings.splitter.task != task:
-        raise ValueError(f"`splitter` {settings.splitter!r} is for {settings.splitter.task}, but `task` is {task!r}")
-    return settings
 
 
 def check_X(X: Any, name: str = "X", features: int | None = None) -> NDArray[np.float64]:

@@ -7,18 +7,25 @@ what is wrong; none allocates more than the arrays already read, and the tree ch
 
 from __future__ import annotations
 
+import re
 from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["ModelFileError", "check_trees", "field", "int_field", "check_classes", "check_finite"]
+__all__ = ["ModelFileError", "check_class_labels", "check_class_vector", "check_classes", "check_feature_names",
+           "check_finite", "check_fingerprint", "check_levels", "check_seed", "check_trees", "field", "int_field"]
 
 # dtypes of the node arrays, as written (little-endian); a file with any other dtype is refused
 NODE_DTYPES = {"feature": "<i4", "threshold": "<f8", "left": "<i4", "right": "<i4", "value": "<f8",
                "cases": "<f8", "decrease": "<f8", "depth": "<i4", "missing_left": "|b1",
                "category_left": "<u8"}
+# file member -> Tree attribute
+TREE_FIELDS = {"feature": "feature", "threshold": "threshold", "left": "left", "right": "right",
+               "value": "value", "cases": "cases", "decrease": "impurity_decrease", "depth": "depth",
+               "missing_left": "missing_left", "category_left": "category_left"}
 LABEL_KINDS = "biufUS"
+MAX_SEED_WORDS = 64
 
 
 class ModelFileError(ValueError):
@@ -151,3 +158,59 @@ def check_trees(nodes: dict[str, NDArray], offsets: NDArray[np.int64], features:
         raise ModelFileError("the tree offsets must start at 0, rise by at least 1 and end at the node count")
     _check_links(nodes, offsets, features)
     _check_node_values(nodes, offsets, classes, categories)
+
+
+# ------------------------------------------------------------------------------------------------ header fields
+def check_feature_names(header: dict) -> tuple[str, ...]:
+    """One distinct string per feature."""
+    names = field(header, "feature_names", list)
+    if len(names) != header["features"] or not all(isinstance(c, str) for c in names) \
+            or len(set(names)) != len(names):
+        raise ModelFileError("the header's feature names must be one distinct string per feature")
+    return tuple(names)
+
+
+def check_class_labels(header: dict, arrays: dict, task: str) -> NDArray | None:
+    """The class labels (object array when saved from objects), or None for regression."""
+    labels = header["classes"]
+    if (labels is None) != (task == "regression"):
+        raise ModelFileError("the header's classes do not fit its task")
+    if labels is None:
+        return None
+    classes = arrays["classes"]
+    check_classes(classes)
+    return classes.astype(object) if field(labels, "object", bool, "classes") else classes
+
+
+def check_class_vector(header: dict, K: int) -> NDArray[np.float64] | None:
+    """The class weights: one positive finite number per class, or None."""
+    values = field(header, "class_weight_values", (list, type(None)))
+    if values is None:
+        return None
+    vector = np.array(values, dtype=np.float64) if all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                                       for v in values) else np.empty(0)
+    if vector.shape != (K,) or not np.all(np.isfinite(vector)) or not np.all(vector > 0):
+        raise ModelFileError("the header's class weights must be one positive number per class")
+    return vector
+
+
+def check_seed(header: dict) -> np.random.SeedSequence:
+    """The root seed: a few non-negative 128-bit integers."""
+    record = field(header, "seed", dict)
+    entropy = field(record, "entropy", (int, list), "seed")
+    spawn_key = field(record, "spawn_key", list, "seed")
+    pool_size = int_field(record, "pool_size", 4, "seed")
+    words = entropy if isinstance(entropy, list) else [entropy]
+    if pool_size > MAX_SEED_WORDS or len(words) > MAX_SEED_WORDS or len(spawn_key) > MAX_SEED_WORDS \
+            or not all(isinstance(w, int) and not isinstance(w, bool) and 0 <= w < 2**128
+                       for w in words + spawn_key):
+        raise ModelFileError("the header's seed must hold a few non-negative 128-bit integers")
+    return np.random.SeedSequence(entropy, spawn_key=tuple(spawn_key), pool_size=pool_size)
+
+
+def check_fingerprint(header: dict) -> str:
+    """A SHA-256 hex digest."""
+    value = field(header, "fingerprint", str)
+    if not re.fullmatch(r"[0-9a-f]{64}", value):
+        raise ModelFileError("the header's fingerprint is not a SHA-256 hex digest")
+    return value

@@ -8,7 +8,6 @@ and the trees are validated by :mod:`._modelcheck` before a forest is built from
 
 from __future__ import annotations
 
-import hashlib
 import io
 import json
 import os
@@ -25,7 +24,7 @@ from numpy.typing import NDArray
 from .check import NODE_DTYPES, ModelFileError, field, int_field
 from .oob import oob_shapes
 
-__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "ModelFileError", "data_fingerprint", "read_model", "write_model"]
+__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "ModelFileError", "read_model", "write_model"]
 
 FORMAT_NAME = "forestlab-forest"
 FORMAT_VERSION = 1
@@ -35,16 +34,6 @@ NODE_MEMBERS = tuple(NODE_DTYPES)
 _READ_ERRORS = (zipfile.BadZipFile, zipfile.LargeZipFile, OSError, EOFError, KeyError, ValueError, TypeError,
                 struct.error, NotImplementedError, RuntimeError, zlib.error, OverflowError, MemoryError,
                 UnicodeDecodeError, RecursionError, IndexError)
-
-
-def data_fingerprint(X: NDArray[np.float64], target: NDArray, weights: NDArray[np.float64] | None) -> str:
-    """SHA-256 (hex) of the training data: shapes, then the bytes of ``X``, the encoded targets, the weights."""
-    digest = hashlib.sha256(b"forestlab-data-1")
-    for part in (np.ascontiguousarray(X, dtype="<f8"), np.ascontiguousarray(target),
-                 np.ascontiguousarray(np.empty(0) if weights is None else weights, dtype="<f8")):
-        digest.update(repr((part.dtype.str, part.shape)).encode())
-        digest.update(part.tobytes())
-    return digest.hexdigest()
 
 
 # ------------------------------------------------------------------------------------------------ writing

@@ -17,8 +17,8 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from .check import ModelFileError
 from ..analyses.results import OutOfBag
+from .check import ModelFileError
 
 __all__ = ["oob_arrays", "oob_shapes", "oob_from_arrays"]
 

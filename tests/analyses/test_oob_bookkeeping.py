@@ -167,7 +167,7 @@ class TestOutOfBagResult:
         assert np.isnan(oob.margins[never]).all() and np.isnan(oob.votes[never]).all()
         assert (oob.class_index[never] == -1).all()
         covered = ~never
-        assert oob.error == np.mean(oob.class_index[covered] != forest._target.values[covered])
+        assert oob.error == np.mean(oob.class_index[covered] != forest._view.y[covered])
         assert oob.confusion.sum() == covered.sum()
         assert not np.isin(np.flatnonzero(never), oob.doubtful(threshold=2.0).case).any()
 

@@ -9,7 +9,6 @@ from refdata import load_table
 import forestlab as fl
 from forestlab.synthetic import friedman1, threenorm, twonorm
 
-
 PUBLIC = ["sonar", "ionosphere", "glass", "breastcancer", "pimaindiansdiabetes"]
 
 

@@ -15,8 +15,8 @@ import numpy as np
 import pytest
 
 import forestlab as fl
-import forestlab._forest as forest_module
-import forestlab.execution.parallel as parallel_module
+import forestlab._fitting as forest_module
+import forestlab.execution.work as parallel_module
 
 FIELDS = ("feature", "threshold", "left", "right", "value", "cases", "impurity_decrease", "depth")
 

@@ -23,8 +23,9 @@ import numpy as np
 import pytest
 
 import forestlab as fl
-import forestlab._forest as forest_module
+import forestlab._fitting as forest_module
 from forestlab.execution import parallel as _parallel
+from forestlab.execution import pool as _pool
 from forestlab.execution import shared as _shared
 from forestlab.synthetic import friedman1, twonorm
 
@@ -41,8 +42,8 @@ def _assert_same_forest(a: fl.Forest, b: fl.Forest) -> None:
     """Bit for bit: every array of every tree, the in-bag counts, and read-only flags."""
     assert a.inbag.tobytes() == b.inbag.tobytes()
     assert not b.inbag.flags.writeable
-    assert len(a._trees) == len(b._trees)
-    for ta, tb in zip(a._trees, b._trees):
+    assert len(a._view.trees) == len(b._view.trees)
+    for ta, tb in zip(a._view.trees, b._view.trees):
         for f in fields(ta):
             xa, xb = getattr(ta, f.name), getattr(tb, f.name)
             assert xa.dtype == xb.dtype and xa.shape == xb.shape and xa.tobytes() == xb.tobytes(), f.name
@@ -154,7 +155,7 @@ class TestPlanBlocks:
         assert [len(b) for b in _parallel.plan_blocks(range(40), 64)] == [40]
 
     def test_start_method_is_not_fork(self):
-        assert _parallel.start_method() in ("forkserver", "spawn")
+        assert _pool.start_method() in ("forkserver", "spawn")
 
 
 @pytest.fixture(scope="module")
@@ -176,7 +177,7 @@ class TestInvariance:
 
     def test_process_pool_of_the_caller(self, reference):
         X, y, ref = reference
-        context = multiprocessing.get_context(_parallel.start_method())
+        context = multiprocessing.get_context(_pool.start_method())
         with ProcessPoolExecutor(2, mp_context=context) as pool:
             _assert_same_forest(ref, fl.Forest(trees=18, rng=5, executor=pool).fit(X, y))
             # the same pool serves a second fit on other data (fresh segment, nothing cached)
@@ -197,11 +198,11 @@ class TestInvariance:
         X, y = _problem("regression", n=200)
         ref = fl.Forest(trees=9, rng=8).fit(X, y)
         _assert_same_forest(ref, fl.Forest(trees=9, rng=8, workers=2).fit(X, y))
-        data, rules = ref._data, ref._rules
+        data, rules = ref._data, ref._grown.rules
         for batch in (1, 2, 5):
             trees, inbag = _parallel.grow_trees(data, rules, ref.seed, range(9), batch, workers=2)
             assert inbag.tobytes() == ref.inbag.tobytes()
-            assert all(a.threshold.tobytes() == b.threshold.tobytes() for a, b in zip(ref._trees, trees))
+            assert all(a.threshold.tobytes() == b.threshold.tobytes() for a, b in zip(ref._view.trees, trees))
 
 
     def test_missing_values_and_categories_travel_too(self):
@@ -274,7 +275,7 @@ class TestFailures:
 
     def test_raise_in_the_callers_process_pool(self, tmp_path):
         X, y = _problem()
-        context = multiprocessing.get_context(_parallel.start_method())
+        context = multiprocessing.get_context(_pool.start_method())
         sampler = Misbehaving(os.getpid(), "raise", str(tmp_path))
         with ProcessPoolExecutor(2, mp_context=context) as pool:
             with pytest.raises(fl.TreeGrowthError, match=r"ValueError: boom in a worker"):
@@ -334,14 +335,14 @@ class TestFailures:
         script = textwrap.dedent("""
             import os, struct, time
             from concurrent.futures import ProcessPoolExecutor
-            from forestlab.execution import parallel as _parallel
+            from forestlab.execution import pool as _pool
             if __name__ == "__main__":
-                pool = ProcessPoolExecutor(2, mp_context=_parallel._worker_context())
+                pool = ProcessPoolExecutor(2, mp_context=_pool.worker_context())
                 assert pool.submit(int, "7").result() == 7  # workers and manager thread are up
                 writer = pool._result_queue._writer
                 os.write(writer.fileno(), struct.pack("!i", 1000) + b"x" * 10)  # header of 1000 bytes, 10 sent
                 time.sleep(0.2)  # the manager thread is now waiting for the other 990
-                _parallel._stop_pool(pool)
+                _pool.stop_pool(pool)
                 print("stopped", flush=True)
         """)
         path = tmp_path / "half.py"

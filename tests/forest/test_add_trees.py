@@ -19,8 +19,8 @@ from forestlab.synthetic import friedman1, twonorm
 
 def assert_same_forest(a, b):
     assert a.inbag.tobytes() == b.inbag.tobytes()
-    assert len(a._trees) == len(b._trees)
-    for ta, tb in zip(a._trees, b._trees):
+    assert len(a._view.trees) == len(b._view.trees)
+    for ta, tb in zip(a._view.trees, b._view.trees):
         for f in dataclasses.fields(ta):
             assert getattr(ta, f.name).tobytes() == getattr(tb, f.name).tobytes(), f.name
 

@@ -46,7 +46,7 @@ class TestFrames:
         # encoded as numbers, a category column is named in `categorical=` (matched to the frame's names)
         codes = coloured.assign(colour=coloured["colour"].cat.codes.astype(float)).drop(columns="note")
         forest = fl.Forest(trees=3, rng=0, categorical=["colour"]).fit(codes, y)
-        assert list(forest._levels) == [3] and forest.feature_names[3] == "colour"
+        assert list(forest._view.levels) == [3] and forest.feature_names[3] == "colour"
         forest = fl.Forest(trees=3, rng=0).fit(df, y)
         with pytest.raises(ValueError, match=r"3 features seen in fit; missing \['c'\]$"):
             forest.predict(df[["a", "b"]])
@@ -62,7 +62,7 @@ class TestFrames:
         y = np.where(supplier == "borealis", "rework", "pass")
         frame = pd.DataFrame({"supplier": pd.Categorical(supplier), "noise": rng.normal(size=300)})
         forest = fl.Forest(trees=20, rng=0).fit(frame, y)
-        assert list(forest._levels) == [0]
+        assert list(forest._view.levels) == [0]
         assert forest.oob.error == 0.0
         # a new frame with its own category order, an unseen label and a missing one
         new = pd.DataFrame({"noise": [0.0, 0.0, 0.0, 0.0],
@@ -87,7 +87,7 @@ class TestFrames:
         np.testing.assert_array_equal(forest.per_tree(df[["speed", "temp", "load"]]), forest.per_tree(X))
         plain = fl.Forest(trees=10, rng=3).fit(X, y)
         assert plain.feature_names == ("x0", "x1", "x2")
-        for a, b in zip(plain._trees, forest._trees):
+        for a, b in zip(plain._view.trees, forest._view.trees):
             np.testing.assert_array_equal(a.threshold, b.threshold)
         mixed = df.assign(flag=np.arange(120) % 2 == 0, count=pd.array(np.arange(120), dtype="Int64"))
         assert fl.Forest(trees=2, rng=0).fit(mixed, y).feature_names[-2:] == ("flag", "count")
@@ -198,7 +198,7 @@ class TestClassWeights:
         assert balanced.class_weights == pytest.approx({"bad": 150 / (2 * n_k[0]), "ok": 150 / (2 * n_k[1])})
         w = np.where(y == "bad", 150 / (2 * n_k[0]), 150 / (2 * n_k[1]))
         by_case = fl.Forest(trees=6, rng=9).fit(X, y, weights=w)
-        for a, b in zip(balanced._trees, by_case._trees):
+        for a, b in zip(balanced._view.trees, by_case._view.trees):
             _trees_equal(a, b)
         given = fl.Forest(trees=6, class_weights={"bad": 3}, rng=9).fit(X, y)
         assert given.class_weights == {"bad": 3.0, "ok": 1.0}

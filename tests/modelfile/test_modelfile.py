@@ -86,8 +86,8 @@ def _save_load(forest, include_data=False, **load_options):
 
 
 def _assert_same_forest(a, b):
-    assert len(a._trees) == len(b._trees)
-    for ta, tb in zip(a._trees, b._trees):
+    assert len(a._view.trees) == len(b._view.trees)
+    for ta, tb in zip(a._view.trees, b._view.trees):
         for name in NODE_ARRAYS:
             x, z = getattr(ta, name), getattr(tb, name)
             assert x.dtype == z.dtype, name
@@ -182,6 +182,37 @@ class TestAnalysesAfterLoad:
         np.testing.assert_array_equal(full.importance(rng=2).per_tree, forest.importance(rng=2).per_tree)
         np.testing.assert_array_equal(full.proximity(oob=False), forest.proximity(oob=False))
         np.testing.assert_array_equal(bare.proximity(oob=False, X=X[:30]), forest.proximity(oob=False, X=X[:30]))
+
+
+class TestGrowingALoadedForest:
+    """A forest loaded with its data grows on exactly as if it had never been saved."""
+
+    @pytest.mark.parametrize("name", ["str", "int-categorical-balance", "regression-categorical-weights"])
+    def test_add_trees_equals_one_fit_of_all_trees(self, name):
+        case = CASES[name]
+        forest, X = _fit(case, seed=4)
+        score = _data()[1]
+        y = score if case["labels"] is None else _labels(case["labels"], score)
+        w = forest.case_weights
+        loaded = _save_load(forest, include_data=True).add_trees(X, y, trees=5)
+        whole = fl.Forest(trees=17, rng=4, **case["options"]).fit(X, y, weights=w)
+        _assert_same_forest(whole, loaded)
+
+    def test_other_data_or_relabelled_classes_are_refused(self):
+        forest, X = _fit(CASES["str"])
+        y = _labels("str", _data()[1])
+        loaded = _save_load(forest, include_data=True)
+        with pytest.raises(ValueError, match=r"`add_trees` grows more trees on the data the forest was fit on, "
+                                             r"but the values of `X` or `y` differ"):
+            loaded.add_trees(X + 1.0, y, trees=2)
+        renamed = np.char.add(y.astype(str), "!")   # the same class codes under other labels
+        with pytest.raises(ValueError, match=r"the values of `X` or `y` differ"):
+            loaded.add_trees(X, renamed, trees=2)
+
+    def test_without_data_the_message_says_how_to_keep_it(self):
+        forest, X = _fit(CASES["str"])
+        with pytest.raises(RuntimeError, match=r"save it with `save\(path, include_data=True\)`"):
+            _save_load(forest).add_trees(X, _labels("str", _data()[1]), trees=2)
 
 
 class PoissonLike(fl.CartSplitter):

@@ -1,0 +1,66 @@
+"""How the Forest's members are made: settings and fitted attributes as properties, the analyses as
+one-line hand-offs of the fitted view, and the plain ``Forest(...)`` repr."""
+
+from __future__ import annotations
+
+import functools
+from collections.abc import Callable
+from typing import Any, Concatenate, ParamSpec, TypeVar
+
+import numpy as np
+from numpy.typing import NDArray
+
+from .analyses.view import FittedForest
+from .intake.settings import Settings
+
+__all__ = ["DEFAULTS", "fitted_attribute", "hand_off", "setting", "settings_repr", "vote_shares"]
+
+P = ParamSpec("P")
+R = TypeVar("R")
+
+# the constructor's defaults, in its order (``settings_repr`` shows what differs)
+DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "depth_limit": None,
+            "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None,
+            "balance": None, "class_weights": None, "executor": None, "progress": None}
+
+
+def hand_off(analysis: Callable[Concatenate[FittedForest, P], R]) -> Callable[Concatenate[Any, P], R]:
+    """A Forest method that gives ``analysis`` the fitted forest's view; the analysis's docstring is its own."""
+    @functools.wraps(analysis)
+    def method(self: Any, *args: P.args, **kwargs: P.kwargs) -> R:
+        return analysis(self._fitted_view(), *args, **kwargs)
+    return method
+
+
+def fitted_attribute(name: str, doc: str) -> property:
+    """A read-only attribute of the fitted forest (an AttributeError before fit)."""
+    def get(self: Any) -> Any:
+        part = self._grown if name == "seed" else self._view
+        if part is None:
+            raise AttributeError(f"`{name}` is set by `fit`; this Forest is not fitted yet")
+        return getattr(part, name)
+    return property(get, doc=doc)
+
+
+def setting(name: str, doc: str, resolved: Callable[[Any], Any] | None = None) -> property:
+    """A setting as given; after fit, ``resolved(forest)`` where the fit resolves it."""
+    def get(self: Any) -> Any:
+        return resolved(self) if resolved is not None and self.fitted else getattr(self._settings, name)
+    return property(get, doc=doc)
+
+
+def settings_repr(settings: Settings, rng: Any) -> str:
+    """``Forest(...)`` with the arguments that differ from their defaults."""
+    given = {k: rng if k == "rng" else getattr(settings, k) for k in DEFAULTS}
+    if repr(given["sampler"]) == "RandomSubset(None)":
+        given["sampler"] = None
+    shown = [f"{k}={v!r}" for k, v in given.items() if v is not DEFAULTS[k] and v != DEFAULTS[k]]
+    return f"Forest({', '.join(shown)})"
+
+
+def vote_shares(per_tree: NDArray[np.int64], classes: int) -> NDArray[np.float64]:
+    """Share of rows of ``per_tree`` (trees, n) equal to each class: shape (n, classes)."""
+    trees, n = per_tree.shape
+    flat = (np.arange(n) * classes)[None, :] + per_tree
+    counts = np.bincount(flat.ravel(), minlength=n * classes).reshape(n, classes)
+    return counts / trees

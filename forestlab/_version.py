@@ -1,0 +1,3 @@
+"""The version of forestlab (also written into every model file)."""
+
+__version__ = "0.1.0"
