@@ -1,18 +1,4 @@
-"""Pictures of a fitted forest's analyses (needs the optional extra: ``pip install 'forestlab[plot]'``).
-
-Every function draws on ``ax`` (a new figure when None) and returns the matplotlib Axes, so pictures can be
-combined, restyled and saved by the caller. Nothing here is imported by ``import forestlab``.
-
-=====================  ==============================================================================
-function               draws
-=====================  ==============================================================================
-`error_curve`          OOB error as trees are added, total and per class
-`margins`              histogram of OOB margins with the doubtful cases marked
-`importance`           importance bars with the spread over trees
-`partial_dependence`   partial dependence curve (with ICE curves) or a two-feature surface
-`proximity_map`        the cases on the proximity map, coloured by class, outliers ringed
-=====================  ==============================================================================
-"""
+"""Pictures of the analyses of a fitted forest: error curve, margins, importance, dependence, proximity map."""
 
 from __future__ import annotations
 
@@ -21,59 +7,12 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike
 
-try:
-    import matplotlib
-except ImportError:  # pragma: no cover - exercised only without the extra
-    raise ImportError("forestlab.plot needs matplotlib; install it with: pip install 'forestlab[plot]'") from None
-
-from .analyses.dependence import Dependence
-from .analyses.importance import Importance
-from .analyses.proximity import ProximityMap
+from ..analyses.dependence import Dependence
+from ..analyses.importance import Importance
+from ..analyses.proximity import ProximityMap
+from ._style import ALERT, INK, MUTED, PALETTE, axes, style, vector
 
 __all__ = ["error_curve", "importance", "margins", "partial_dependence", "proximity_map"]
-
-#: Colours of the house style: ink for the main quantity, then one colour per class or series.
-INK = "#22313f"
-MUTED = "#9aa5b1"
-ALERT = "#c0392b"
-PALETTE = ("#2a7f8e", "#d9892b", "#7b5ea7", "#5c9e48", "#c25576", "#8c6d46", "#3f6fb5", "#a3a3a3")
-
-
-def _axes(ax: Any, size: tuple[float, float] = (6.4, 4.0)) -> Any:
-    """``ax``, or a fresh Axes on a new figure."""
-    if ax is not None:
-        if not isinstance(ax, matplotlib.axes.Axes):
-            raise TypeError(f"`ax` must be a matplotlib Axes or None; got {type(ax).__name__}")
-        return ax
-    import matplotlib.pyplot as plt
-
-    _, ax = plt.subplots(figsize=size, layout="constrained")
-    return ax
-
-
-def _style(ax: Any, title: str, xlabel: str, ylabel: str, grid_axis: str | None = "y") -> None:
-    """The house look: light grid behind the data, no box, quiet spines, title on the left."""
-    ax.set_title(title, loc="left", fontsize=11, color=INK, fontweight="bold")
-    ax.set_xlabel(xlabel, color=INK)
-    ax.set_ylabel(ylabel, color=INK)
-    if grid_axis is not None:
-        ax.grid(axis=grid_axis, color="#e3e7eb", linewidth=0.8)
-    ax.set_axisbelow(True)
-    for side in ("top", "right"):
-        ax.spines[side].set_visible(False)
-    for side in ("left", "bottom"):
-        ax.spines[side].set_color(MUTED)
-    ax.tick_params(colors=INK, labelsize=9, length=3)
-
-
-def _vector(values: ArrayLike, name: str) -> np.ndarray:
-    try:
-        arr = np.asarray(values, dtype=np.float64)
-    except (TypeError, ValueError):
-        raise TypeError(f"`{name}` must be an array of numbers") from None
-    if arr.ndim != 1 or arr.size == 0:
-        raise ValueError(f"`{name}` must be a non-empty 1-D array; got shape {arr.shape}")
-    return arr
 
 
 def error_curve(curve: ArrayLike, by_class: ArrayLike | None = None, *, classes: Any = None,
@@ -94,8 +33,8 @@ def error_curve(curve: ArrayLike, by_class: ArrayLike | None = None, *, classes:
     -------
     matplotlib.axes.Axes
     """
-    total = _vector(curve, "curve")
-    ax = _axes(ax)
+    total = vector(curve, "curve")
+    ax = axes(ax)
     trees = np.arange(1, total.size + 1)
     if by_class is not None:
         per = np.asarray(by_class, dtype=np.float64)
@@ -111,7 +50,7 @@ def error_curve(curve: ArrayLike, by_class: ArrayLike | None = None, *, classes:
     ax.set_ylim(bottom=0)
     if by_class is not None:
         ax.legend(frameon=False, fontsize=9)
-    _style(ax, "Out-of-bag error as trees are added", "trees", "OOB error")
+    style(ax, "Out-of-bag error as trees are added", "trees", "OOB error")
     return ax
 
 
@@ -135,7 +74,7 @@ def margins(margins: ArrayLike, doubtful: ArrayLike | None = None, *, threshold:
     -------
     matplotlib.axes.Axes
     """
-    values = _vector(margins, "margins")
+    values = vector(margins, "margins")
     if doubtful is None:
         marked = np.flatnonzero(values < threshold)
     else:
@@ -145,7 +84,7 @@ def margins(margins: ArrayLike, doubtful: ArrayLike | None = None, *, threshold:
             raise ValueError(f"`doubtful` must hold int case indices below {values.size}")
     if isinstance(bins, (bool, np.bool_)) or not isinstance(bins, (int, np.integer)) or bins < 1:
         raise ValueError(f"`bins` must be a positive int; got {bins!r}")
-    ax = _axes(ax)
+    ax = axes(ax)
     shown = values[np.isfinite(values)]
     edges = np.linspace(-1.0, 1.0, bins + 1)
     ax.hist(shown, bins=edges, color=PALETTE[0], edgecolor="white", linewidth=0.6)
@@ -154,7 +93,7 @@ def margins(margins: ArrayLike, doubtful: ArrayLike | None = None, *, threshold:
             markeredgewidth=1.6, color=ALERT, label=f"doubtful ({marked.size})", clip_on=False)
     ax.set_xlim(-1.02, 1.02)
     ax.legend(frameon=False, fontsize=9, loc="upper left")
-    _style(ax, "Out-of-bag margins", "margin (true-class share minus best other share)", "cases")
+    style(ax, "Out-of-bag margins", "margin (true-class share minus best other share)", "cases")
     return ax
 
 
@@ -181,14 +120,14 @@ def importance(result: Importance, *, top: int | None = None, ax: Any = None) ->
             raise ValueError(f"`top` must be a positive int; got {top!r}")
         order = order[:top]
     order = order[::-1]
-    ax = _axes(ax, (6.4, max(2.4, 0.32 * order.size + 1.2)))
+    ax = axes(ax, (6.4, max(2.4, 0.32 * order.size + 1.2)))
     spans = np.nan_to_num(result.spread[order])
     ax.barh(np.arange(order.size), result.scores[order], height=0.62, color=PALETTE[0],
             xerr=spans, error_kw={"ecolor": MUTED, "elinewidth": 1.0, "capsize": 0})
     ax.set_yticks(np.arange(order.size), [result.names[k] for k in order])
     ax.axvline(0.0, color=MUTED, linewidth=0.8)
     label = "rise in OOB error when shuffled" if result.kind == "permutation" else "share of impurity decrease"
-    _style(ax, f"{result.kind.capitalize()} importance", f"{label}  (whisker: ±1 spread over trees)", "",
+    style(ax, f"{result.kind.capitalize()} importance", f"{label}  (whisker: ±1 spread over trees)", "",
            grid_axis="x")
     return ax
 
@@ -217,7 +156,7 @@ def partial_dependence(result: Dependence, *, name: str | Any = None, ice: bool 
         raise TypeError(f"`result` must be a Dependence from Forest.partial_dependence; got {type(result).__name__}")
     names = _names(name, result.features)
     quantity = "prediction" if result.label is None else f"share of votes for {result.label!r}"
-    ax = _axes(ax)
+    ax = axes(ax)
     if len(result.features) == 2:
         return _surface(result, names, quantity, ax)
     grid = result.grid[0]
@@ -226,7 +165,7 @@ def partial_dependence(result: Dependence, *, name: str | Any = None, ice: bool 
         for row in rows:
             ax.plot(grid, result.ice[row], color=PALETTE[0], alpha=0.22, linewidth=0.7)
     ax.plot(grid, result.average, color=INK, linewidth=2.4, label="partial dependence")
-    _style(ax, f"Partial dependence on {names[0]}", names[0], quantity)
+    style(ax, f"Partial dependence on {names[0]}", names[0], quantity)
     return ax
 
 
@@ -245,7 +184,7 @@ def _surface(result: Dependence, names: list[str], quantity: str, ax: Any) -> An
         raise ValueError("a two-feature surface needs at least 2 grid values per feature")
     filled = ax.contourf(g1, g2, result.average.T, levels=12, cmap="cividis")
     ax.figure.colorbar(filled, ax=ax, label=quantity, shrink=0.9)
-    _style(ax, f"Partial dependence on {names[0]} and {names[1]}", names[0], names[1], grid_axis=None)
+    style(ax, f"Partial dependence on {names[0]} and {names[1]}", names[0], names[1], grid_axis=None)
     return ax
 
 
@@ -274,7 +213,7 @@ def proximity_map(result: ProximityMap | ArrayLike, labels: ArrayLike | None = N
     groups = np.zeros(n, dtype=int) if labels is None else np.asarray(labels)
     if groups.shape != (n,):
         raise ValueError(f"`labels` must have one entry per case ({n}); got shape {groups.shape}")
-    ax = _axes(ax, (5.6, 4.8))
+    ax = axes(ax, (5.6, 4.8))
     for k, label in enumerate(np.unique(groups)):
         mine = groups == label
         ax.scatter(coords[mine, 0], coords[mine, 1], s=14, color=PALETTE[k % len(PALETTE)], alpha=0.8,
@@ -290,5 +229,5 @@ def proximity_map(result: ProximityMap | ArrayLike, labels: ArrayLike | None = N
                         color=ALERT)
     if labels is not None or outliers is not None:
         ax.legend(frameon=False, fontsize=9, markerscale=1.2)
-    _style(ax, "Proximity map", "coordinate 1", "coordinate 2", grid_axis="both")
+    style(ax, "Proximity map", "coordinate 1", "coordinate 2", grid_axis="both")
     return ax
