@@ -25,6 +25,7 @@ from .engine.sampler import CandidateSampler
 from .engine.seeding import check_rng
 from .engine.splitter import CartSplitter
 from .engine.tree import Tree, tree_values
+from .export import onnx_model as _onnx
 from .intake.settings import Provenance, Settings, check_settings
 from .intake.validation import int_at_least
 from .modelfile.stored import StoredForest
@@ -293,6 +294,7 @@ class Forest:
     proximity = hand_off(_proximity.proximity)
     outlyingness = hand_off(_proximity.outlyingness)
     proximity_map = hand_off(_proximity.proximity_map)
+    to_onnx = hand_off(_onnx.to_onnx, of="_stored")
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
@@ -303,14 +305,17 @@ class Forest:
         grow more trees or compute out-of-bag results; without them it still predicts. Read it back with
         :func:`forestlab.load`.
         """
-        stored = StoredForest(self._fitted_view(), self._settings, self._grown, self._oob)
-        write_forest(path, stored, include_data=include_data)
+        write_forest(path, self._stored(), include_data=include_data)
 
     # ----------------------------------------------------------------------------------------- internals
     def _fitted_view(self) -> FittedForest:
         if self._view is None:
             raise RuntimeError("this Forest is not fitted yet; call `fit(X, y)` first")
         return self._view
+
+    def _stored(self) -> StoredForest:
+        """The fitted forest as the model file and the exports read it."""
+        return StoredForest(self._fitted_view(), self._settings, self._grown, self._oob)
 
     def _clone_settings(self, rng: Any = None) -> Forest:
         """A new, unfitted Forest with this forest's settings and the given ``rng``."""

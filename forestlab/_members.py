@@ -24,11 +24,13 @@ DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "
             "balance": None, "class_weights": None, "executor": None, "progress": None}
 
 
-def hand_off(analysis: Callable[Concatenate[FittedForest, P], R]) -> Callable[Concatenate[Any, P], R]:
-    """A Forest method that gives ``analysis`` the fitted forest's view; the analysis's docstring is its own."""
+def hand_off(analysis: Callable[Concatenate[FittedForest, P], R],
+             of: str = "_fitted_view") -> Callable[Concatenate[Any, P], R]:
+    """A Forest method that gives ``analysis`` the fitted forest's view (or what the Forest method ``of``
+    returns, e.g. ``"_stored"``: view, settings, provenance and OOB results); the docstring is the analysis's."""
     @functools.wraps(analysis)
     def method(self: Any, *args: P.args, **kwargs: P.kwargs) -> R:
-        return analysis(self._fitted_view(), *args, **kwargs)
+        return analysis(getattr(self, of)(), *args, **kwargs)
     return method
 
 
