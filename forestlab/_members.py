@@ -7,9 +7,8 @@ import functools
 from collections.abc import Callable
 from typing import Any, Concatenate, ParamSpec, TypeVar
 
-import numpy as np
-from numpy.typing import NDArray
 
+from .analyses.cases import vote_shares
 from .analyses.view import FittedForest
 from .intake.settings import Settings
 
@@ -58,11 +57,3 @@ def settings_repr(settings: Settings, rng: Any) -> str:
         given["sampler"] = None
     shown = [f"{k}={v!r}" for k, v in given.items() if v is not DEFAULTS[k] and v != DEFAULTS[k]]
     return f"Forest({', '.join(shown)})"
-
-
-def vote_shares(per_tree: NDArray[np.int64], classes: int) -> NDArray[np.float64]:
-    """Share of rows of ``per_tree`` (trees, n) equal to each class: shape (n, classes)."""
-    trees, n = per_tree.shape
-    flat = (np.arange(n) * classes)[None, :] + per_tree
-    counts = np.bincount(flat.ravel(), minlength=n * classes).reshape(n, classes)
-    return counts / trees
