@@ -26,6 +26,7 @@ from .engine.seeding import check_rng
 from .engine.splitter import CartSplitter
 from .engine.tree import Tree, tree_values
 from .export import onnx_model as _onnx
+from .report import write as _report
 from .intake.settings import Provenance, Settings, check_settings
 from .intake.validation import int_at_least
 from .modelfile.stored import StoredForest
@@ -295,6 +296,7 @@ class Forest:
     outlyingness = hand_off(_proximity.outlyingness)
     proximity_map = hand_off(_proximity.proximity_map)
     to_onnx = hand_off(_onnx.to_onnx, of="_stored")
+    report = hand_off(_report.report, of="_stored")
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
