@@ -236,6 +236,7 @@ def test_a_set_test_on_the_false_branch_of_a_set_test(tmp_path):
                         classes=np.array(["a", "b", "c"]), feature_names=("grade",), levels={0: np.arange(6.0)})
     with pytest.warns(fl.ForestlabWarning, match="no training data"):
         to_onnx(dataclasses.replace(forest._stored(), view=view), tmp_path / "chain.onnx")
+    onnx.checker.check_model(str(tmp_path / "chain.onnx"), full_check=True)
     X = np.array([[0.0], [3.0], [5.0], [1.0], [nan], [7.0], [4.5]])
     out = run(ort.InferenceSession(str(tmp_path / "chain.onnx"), providers=["CPUExecutionProvider"]), X)
     np.testing.assert_array_equal(out["label"], ["c", "a", "b", "c", "c", "c", "c"])
