@@ -26,11 +26,11 @@ from .engine.seeding import check_rng
 from .engine.splitter import CartSplitter
 from .engine.tree import Tree, tree_values
 from .export import onnx_model as _onnx
-from .report import write as _report
 from .intake.settings import Provenance, Settings, check_settings
 from .intake.validation import int_at_least
 from .modelfile.stored import StoredForest
 from .modelfile.write import write_forest
+from .report import write as _report
 
 __all__ = ["Forest"]
 
@@ -295,10 +295,11 @@ class Forest:
     proximity = hand_off(_proximity.proximity)
     outlyingness = hand_off(_proximity.outlyingness)
     proximity_map = hand_off(_proximity.proximity_map)
+
+    # ----------------------------------------------------------------------------------------- files
     to_onnx = hand_off(_onnx.to_onnx, of="_stored")
     report = hand_off(_report.report, of="_stored")
 
-    # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
         """Write the fitted forest to ``path`` (one ``.npz`` file; see docs/file-format.md).
 

@@ -7,7 +7,6 @@ import functools
 from collections.abc import Callable
 from typing import Any, Concatenate, ParamSpec, TypeVar
 
-
 from .analyses.cases import vote_shares
 from .analyses.view import FittedForest
 from .intake.settings import Settings

@@ -77,9 +77,10 @@ def to_onnx(stored: StoredForest, path: str | PathLike) -> Path:
     view = stored.view
     _check_category_values(view)
     if not view.has_data:
-        warnings.warn("this forest holds no training data, so the float32 thresholds were not checked against "
-                      "the training values (float32 inputs are still routed exactly); save the forest with "
-                      "`include_data=True` to have them checked", ForestlabWarning, stacklevel=3)
+        warnings.warn("this forest holds no training data, so its thresholds were not checked against the "
+                      "training values and none was moved to keep a training value on its side (float32 inputs "
+                      "are still routed exactly; see docs/onnx-export.md); save the forest with "
+                      "`include_data=True` to export it with them", ForestlabWarning, stacklevel=3)
     thresholds, moved = forest_thresholds(view)
     model = _model(onnx, stored, ensemble_lists(view, thresholds), moved)
     onnx.checker.check_model(model)

@@ -241,3 +241,24 @@ def test_a_set_test_on_the_false_branch_of_a_set_test(tmp_path):
     out = run(ort.InferenceSession(str(tmp_path / "chain.onnx"), providers=["CPUExecutionProvider"]), X)
     np.testing.assert_array_equal(out["label"], ["c", "a", "b", "c", "c", "c", "c"])
     np.testing.assert_array_equal(out["label"], view.classes[tree_values(view.trees, view.coded(X), np.int64)[0]])
+
+
+def test_a_frame_category_column_reads_label_positions(tmp_path):
+    """A data-frame category column: the model's input is the label's position in the metadata's list (a
+    category no case has comes first, so positions and the trees' codes differ by one)."""
+    pd = pytest.importorskip("pandas")
+    X, y, names = load_table("breastcancer")
+    frame = pd.DataFrame(X, columns=names)
+    grade = {1: "low", 2: "low", 3: "mid", 4: "mid", 5: "mid", 6: "high", 7: "high", 8: "high", 10: "top"}
+    frame["Mitoses"] = pd.Categorical(frame["Mitoses"].map(grade), categories=["none", "top", "low", "mid", "high"])
+    forest = fl.Forest(trees=30, rng=8).fit(frame, y)
+    session = exported(forest, tmp_path / "frame.onnx")
+    labels = json.loads({p.key: p.value for p in onnx.load(tmp_path / "frame.onnx").metadata_props}
+                        ["category_labels"])["Mitoses"]
+    assert labels == ["none", "top", "low", "mid", "high"]
+    rows = np.asarray(frame.drop(columns="Mitoses"), dtype=np.float64)
+    position = frame["Mitoses"].map({label: k for k, label in enumerate(labels)}).astype(float).to_numpy()
+    inputs = np.insert(rows, names.index("Mitoses"), position, axis=1)
+    out = run(session, inputs)
+    np.testing.assert_array_equal(out["label"], forest.predict(frame))
+    assert np.all(np.abs(out["vote_shares"] - forest.votes(frame)) <= np.spacing(np.float32(forest.votes(frame))))
