@@ -25,10 +25,12 @@ from .engine.sampler import CandidateSampler
 from .engine.seeding import check_rng
 from .engine.splitter import CartSplitter
 from .engine.tree import Tree, tree_values
+from .export import onnx_model as _onnx
 from .intake.settings import Provenance, Settings, check_settings
 from .intake.validation import int_at_least
 from .modelfile.stored import StoredForest
 from .modelfile.write import write_forest
+from .report import write as _report
 
 __all__ = ["Forest"]
 
@@ -295,6 +297,9 @@ class Forest:
     proximity_map = hand_off(_proximity.proximity_map)
 
     # ----------------------------------------------------------------------------------------- files
+    to_onnx = hand_off(_onnx.to_onnx, of="_stored")
+    report = hand_off(_report.report, of="_stored")
+
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
         """Write the fitted forest to ``path`` (one ``.npz`` file; see docs/file-format.md).
 
@@ -303,14 +308,17 @@ class Forest:
         grow more trees or compute out-of-bag results; without them it still predicts. Read it back with
         :func:`forestlab.load`.
         """
-        stored = StoredForest(self._fitted_view(), self._settings, self._grown, self._oob)
-        write_forest(path, stored, include_data=include_data)
+        write_forest(path, self._stored(), include_data=include_data)
 
     # ----------------------------------------------------------------------------------------- internals
     def _fitted_view(self) -> FittedForest:
         if self._view is None:
             raise RuntimeError("this Forest is not fitted yet; call `fit(X, y)` first")
         return self._view
+
+    def _stored(self) -> StoredForest:
+        """The fitted forest as the model file and the exports read it."""
+        return StoredForest(self._fitted_view(), self._settings, self._grown, self._oob)
 
     def _clone_settings(self, rng: Any = None) -> Forest:
         """A new, unfitted Forest with this forest's settings and the given ``rng``."""

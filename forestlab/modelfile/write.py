@@ -23,7 +23,7 @@ from .container import FORMAT_NAME, FORMAT_VERSION, write_model
 from .oob import oob_arrays
 from .stored import BUILTIN, StoredComponent, StoredForest
 
-__all__ = ["write_forest"]
+__all__ = ["stored_oob", "write_forest"]
 
 
 def write_forest(path: str | PathLike, stored: StoredForest, include_data: bool = False) -> None:
@@ -44,7 +44,7 @@ def write_forest(path: str | PathLike, stored: StoredForest, include_data: bool 
     if include_data:
         arrays["X"] = view.X.astype("<f8")
         arrays["y"] = view.y.astype("<i8" if view.classes is not None else "<f8")
-    oob = _oob_to_store(stored)
+    oob = stored_oob(stored)
     if oob is not None:
         arrays.update(oob_arrays(oob, view.y))
     header = _header(stored, labels, bool(include_data), arrays)
@@ -63,7 +63,7 @@ def _tree_arrays(view: FittedForest) -> dict[str, NDArray]:
     return arrays
 
 
-def _oob_to_store(stored: StoredForest) -> OutOfBag | None:
+def stored_oob(stored: StoredForest) -> OutOfBag | None:
     """The forest's OOB results (computed now if the training data allow), or None."""
     if stored.oob is not None or not stored.view.has_data:
         return stored.oob
