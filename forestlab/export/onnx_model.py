@@ -36,7 +36,7 @@ OPSETS = {"": 21, "ai.onnx.ml": 5}      # TreeEnsemble (set membership, missing 
 AGGREGATE_SUM = 1
 
 
-def to_onnx(stored: StoredForest, path: str | PathLike) -> Path:
+def to_onnx(stored: StoredForest, path: str | PathLike, *, strict: bool = False) -> Path:
     """Write the forest as an ONNX model (the ``TreeEnsemble`` operator of ``ai.onnx.ml`` opset 5).
 
     Called as ``forest.to_onnx(path)``; needs ``pip install 'forestlab[onnx]'``. The model reads one float32
@@ -57,6 +57,11 @@ def to_onnx(stored: StoredForest, path: str | PathLike) -> Path:
     ----------
     path : str or os.PathLike
         The file to write (its folder must exist); ``.onnx`` is the usual suffix.
+    strict : bool, default False
+        Refuse the export instead of moving a threshold: with ``strict=True`` a forest is exported only when
+        one float32 threshold per split routes every training value *and* every float32 number as forestlab
+        does. On data recorded to a few decimals that is often impossible (a training value sitting on a
+        split's midpoint rounds up across it in float32), and the default keeps the training values' side.
 
     Returns
     -------
@@ -68,7 +73,7 @@ def to_onnx(stored: StoredForest, path: str | PathLike) -> Path:
     ValueError
         When the standard's float32 comparison cannot reproduce the forest: two training values of a feature
         on either side of a threshold that are the same float32 number, or a category value that is not a
-        float32 number.
+        float32 number; with ``strict=True`` also when any threshold had to move.
     ImportError
         When the ``onnx`` package is not installed.
     """
@@ -81,7 +86,15 @@ def to_onnx(stored: StoredForest, path: str | PathLike) -> Path:
                       "training values and none was moved to keep a training value on its side (float32 inputs "
                       "are still routed exactly; see docs/onnx-export.md); save the forest with "
                       "`include_data=True` to export it with them", ForestlabWarning, stacklevel=3)
+    if not isinstance(strict, (bool, np.bool_)):
+        raise TypeError(f"`strict` must be True or False; got {type(strict).__name__}")
     thresholds, moved = forest_thresholds(view)
+    if strict and moved:
+        raise ValueError(
+            f"`strict=True`: {moved} split threshold(s) cannot send every training value and every float32 number "
+            "the way forestlab does (a training value on the split rounds across it in float32); export with "
+            "`strict=False` to keep every training value on its side (docs/onnx-export.md), or fit on float32 "
+            "numbers (`X.astype(np.float32).astype(np.float64)`)")
     model = _model(onnx, stored, ensemble_lists(view, thresholds), moved)
     onnx.checker.check_model(model)
     target.write_bytes(model.SerializeToString())

@@ -73,3 +73,26 @@ def test_clear_errors(forest, tmp_path, monkeypatch):
     monkeypatch.setitem(sys.modules, "onnx", None)
     with pytest.raises(ImportError, match=r"pip install 'forestlab\[onnx\]'"):
         forest.to_onnx(tmp_path / "forest.onnx")
+
+
+def test_strict_refuses_where_a_threshold_had_to_move(tmp_path):
+    """0.08 and 0.10 split at their midpoint, on which the training value 0.09 sits; 0.09 rounds up across it
+    in float32 (IEEE 754 round to nearest, common practice), so no float32 threshold keeps both 0.09 and the
+    float32 number fl(0.09) on forestlab's sides. The default moves the threshold; strict refuses."""
+    onnx = pytest.importorskip("onnx")
+    t = (0.08 + 0.10) / 2
+    assert 0.09 <= t < float(np.float32(0.09))          # the case a strict export cannot express
+    # 12 cases at 0.09 (class c) are split off first by x1, so the node holding 0.08 (a) and 0.10 (b) cuts at t
+    X = np.column_stack([np.repeat([0.08, 0.10, 0.09], [10, 10, 12]), np.repeat([0.0, 0.0, 1.0], [10, 10, 12])])
+    y = np.repeat(["a", "b", "c"], [10, 10, 12])
+    forest = fl.Forest(trees=1, sampler=fl.AllFeatures(), replace=False, sample_size=1.0, rng=2).fit(X, y)
+    tree = forest.tree(0)
+    assert tree.feature[0] == 1 and tree.threshold[tree.feature == 0].tolist() == [t]
+    with pytest.raises(ValueError, match=r"`strict=True`: 1 split threshold\(s\) cannot send every training value"):
+        forest.to_onnx(tmp_path / "strict.onnx", strict=True)
+    assert not (tmp_path / "strict.onnx").exists()
+    with pytest.raises(TypeError, match="`strict` must be True or False"):
+        forest.to_onnx(tmp_path / "strict.onnx", strict="yes")
+    forest.to_onnx(tmp_path / "kept.onnx")
+    metadata = {p.key: p.value for p in onnx.load(str(tmp_path / "kept.onnx")).metadata_props}
+    assert "(1 of them" in metadata["thresholds"]   # the moved threshold is said in the metadata
