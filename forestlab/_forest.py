@@ -85,9 +85,10 @@ class Forest:
         classification; a splitter's own task takes precedence over the inference.
     workers : int, default 1
         Local processes to grow trees in. With more than one, the training data are put once in shared memory
-        and read by every worker (nothing big is copied or pickled per tree); the processes are started with
-        the ``forkserver`` method (``spawn`` where there is none), so a script that fits with
-        ``workers > 1`` needs the usual ``if __name__ == "__main__":`` guard.
+        and read by every worker (nothing big is copied or pickled per tree). The workers are fresh processes
+        started from forestlab's own code, which never run the user's script, notebook or session, so no
+        ``if __name__ == "__main__":`` guard is needed; a custom sampler or splitter must come from an
+        importable module. They wait, idle, for the session's next fit.
     categorical : sequence of int or str, optional
         Features (positions, or column names) whose values are category labels rather than quantities.
         A split on one sends a subset of its categories left, found exactly for two classes and for
