@@ -67,7 +67,7 @@ class Forest:
     splitter : CartSplitter, {"gini", "entropy", "squared_error"} or None
         Split criterion. None is Gini for classification and squared error for regression.
     min_leaf : float or None
-        Smallest leaf, in weighted cases (bootstrap count times case weight times class weight); each child
+        Smallest leaf, in weighted cases (bootstrap count times case weight times class factor); each child
         of a split must weigh at least this. None is 1 for classification and 5 for regression (common
         practice).
     depth_limit : int or None
@@ -100,10 +100,13 @@ class Forest:
     balance : {"classes"} or None
         ``"classes"`` draws each tree's sample stratified, the same number of cases from every class (the
         balanced random forest of Chen, Liaw & Breiman 2004, "Using random forest to learn imbalanced data").
-    class_weights : dict, "balanced" or None
-        Weight of each class in every sum of the splitter (split scores, ``min_leaf``, leaf values),
-        multiplied into the case weights: a dict label -> positive weight (unlisted classes weigh 1), or
-        ``"balanced"`` for ``n / (K * n_k)`` with ``n_k`` the cases of class ``k``.
+    class_priors : dict, "equal" or None
+        Prior probability of each class (Breiman et al. 1984, chapter 4): every root holds the classes in
+        these shares, each case of class ``k`` weighing ``pi_k * W / W_k`` times its case weight (``W_k`` the
+        total case weight of the class, ``W`` of all) in split scores, ``min_leaf`` and leaf values. A dict
+        gives every class a positive prior (normalised to sum to 1), ``"equal"`` gives each ``1 / K``; None
+        keeps the shares of the data. For costs of misclassifying each class, give priors in proportion to
+        ``cost_k * W_k``.
     executor : concurrent.futures.Executor or None
         Grow the trees on this executor instead: a ``ProcessPoolExecutor`` or ``ThreadPoolExecutor`` of your
         own, or a dask distributed client's ``client.get_executor()`` to fit on a cluster (the data then
@@ -164,10 +167,10 @@ class Forest:
                  depth_limit: int | None = None, sample_size: int | float | None = None, replace: bool = True,
                  rng: Any = None, task: str | None = None, workers: int = 1,
                  categorical: Sequence[int | str] | None = None, balance: str | None = None,
-                 class_weights: dict | str | None = None, executor: Executor | None = None,
+                 class_priors: dict | str | None = None, executor: Executor | None = None,
                  progress: bool | Callable[[int, int], object] | None = None) -> None:
         self._settings: Settings = check_settings(trees, sampler, splitter, min_leaf, depth_limit, sample_size,
-                                                  replace, task, workers, categorical, balance, class_weights,
+                                                  replace, task, workers, categorical, balance, class_priors,
                                                   executor, progress)
         check_rng(rng)
         self._rng = rng
@@ -190,8 +193,8 @@ class Forest:
                            lambda f: f._grown.rules.sample_size)
     replace = setting("replace", "Whether bootstrap draws are with replacement.")
     balance = setting("balance", 'How each tree\'s sample is drawn: None (plain bootstrap) or ``"classes"``.')
-    class_weights = setting("class_weights", "The class weights setting; after fit, a dict label -> weight of "
-                             "every class (None if not set).", lambda f: f._grown.class_weights)
+    class_priors = setting("class_priors", "The class priors setting; after fit, a dict label -> prior of every "
+                            "class (None if not set).", lambda f: f._grown.priors)
 
     @property
     def fitted(self) -> bool:

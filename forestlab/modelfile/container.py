@@ -24,10 +24,12 @@ from numpy.typing import NDArray
 from .check import NODE_DTYPES, ModelFileError, field, int_field
 from .oob import oob_shapes
 
-__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "ModelFileError", "read_model", "write_model"]
+__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "READ_VERSIONS", "ModelFileError", "read_model", "write_model"]
 
 FORMAT_NAME = "forestlab-forest"
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
+#: Versions this forestlab reads: version 1 named the class priors "class weights" (see docs/file-format.md).
+READ_VERSIONS = (1, 2)
 MAX_MEMBERS = 32
 MAX_HEADER_BYTES = 256 * 2**20
 NODE_MEMBERS = tuple(NODE_DTYPES)
@@ -128,8 +130,9 @@ def _read_header(zf: zipfile.ZipFile, infos: dict[str, zipfile.ZipInfo]) -> dict
     if not isinstance(header, dict) or header.get("format") != FORMAT_NAME:
         raise ModelFileError("the header does not name the forestlab forest format")
     version = field(header, "format_version", int)
-    if version != FORMAT_VERSION:
-        raise ModelFileError(f"format version {version} is not supported (this forestlab reads {FORMAT_VERSION})")
+    if version not in READ_VERSIONS:
+        raise ModelFileError(f"format version {version} is not supported (this forestlab reads versions "
+                             f"{', '.join(map(str, READ_VERSIONS))})")
     return header
 
 
