@@ -13,11 +13,12 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from ._fitting import grow, more_of_the_same, prepare, regrow
+from ._summary import fitted_summary
 from ._members import fitted_attribute, hand_off, setting, settings_repr, vote_shares
 from .analyses import dependence as _dependence
 from .analyses import importance as _importance
 from .analyses import proximity as _proximity
-from .analyses.oob import out_of_bag
+from .analyses.oob import known_out_of_bag, out_of_bag
 from .analyses.results import OutOfBag
 from .analyses.view import FittedForest
 from .engine.presort import TrainingData
@@ -202,7 +203,12 @@ class Forest:
         return self._view is not None
 
     def __repr__(self) -> str:
-        return settings_repr(self._settings, self._rng)
+        """Unfitted: ``Forest(...)`` with the settings that differ from the defaults. Fitted: task, data, trees,
+        candidates per split and the out-of-bag error (computed once, when the training data are there)."""
+        if self._view is None:
+            return settings_repr(self._settings, self._rng)
+        self._oob = known_out_of_bag(self._view, self._oob)
+        return fitted_summary(self._view, self._grown.rules, self._oob)
 
     # ----------------------------------------------------------------------------------------- fitting
     def fit(self, X: ArrayLike, y: ArrayLike, weights: ArrayLike | None = None) -> Forest:

@@ -6,7 +6,6 @@ See ``docs/file-format.md`` for the layout; :mod:`.container` writes the ``.npz`
 from __future__ import annotations
 
 import json
-import warnings
 from os import PathLike
 from typing import Any
 
@@ -14,8 +13,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._version import __version__
-from .._warnings import NeverOutOfBagWarning
-from ..analyses.oob import out_of_bag
+from ..analyses.oob import known_out_of_bag
 from ..analyses.results import OutOfBag
 from ..analyses.view import FittedForest
 from .check import LABEL_KINDS, NODE_DTYPES, TREE_FIELDS
@@ -65,11 +63,7 @@ def _tree_arrays(view: FittedForest) -> dict[str, NDArray]:
 
 def stored_oob(stored: StoredForest) -> OutOfBag | None:
     """The forest's OOB results (computed now if the training data allow), or None."""
-    if stored.oob is not None or not stored.view.has_data:
-        return stored.oob
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", NeverOutOfBagWarning)
-        return out_of_bag(stored.view)
+    return known_out_of_bag(stored.view, stored.oob)
 
 
 def _header(stored: StoredForest, labels: dict | None, include_data: bool, arrays: dict) -> dict:
