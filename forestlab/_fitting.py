@@ -23,6 +23,7 @@ from .engine.tree import Tree
 from .execution.parallel import grow_trees
 from .intake.categories import encode_columns
 from .intake.fingerprint import check_same_data, data_fingerprint
+from .intake.memory import check_memory
 from .intake.settings import Provenance, Settings, check_class_options, priors_and_factors, resolve_rules, task_for
 from .intake.tables import default_names, read_table
 from .intake.validation import check_splitter_output, check_X, check_y, resolve_categorical
@@ -82,6 +83,7 @@ def grow(data: TrainingData | None, provenance: Provenance, settings: Settings,
          tree_ids: range) -> tuple[list[Tree], NDArray[np.uint8]]:
     """Grow the trees with the given spawn indices, in batches sized by the number of cases."""
     _check_can_grow(data, provenance)
+    check_memory(len(tree_ids), data.rows)
     batch = max(1, min(MAX_BATCH, BATCH_ITEMS // data.rows))
     return grow_trees(data, provenance.rules, provenance.seed, tree_ids, batch, workers=settings.workers,
                       executor=settings.executor, progress=settings.progress)

@@ -60,7 +60,8 @@ class Forest:
     Parameters
     ----------
     trees : int, default 500
-        Number of bootstrap samples, hence trees.
+        Number of bootstrap samples, hence trees. A fit refuses (MemoryError) when ``trees * (n + 1000)``
+        bytes, the in-bag counts and a floor for the trees, exceed the memory available.
     sampler : CandidateSampler, int, float, {"sqrt", "log2"} or None
         Candidate features per split. None is :class:`RandomSubset` with the common-practice ``m``:
         ``floor(sqrt(p))`` for classification, ``max(1, floor(p/3))`` for regression. :class:`AllFeatures`

@@ -8,6 +8,7 @@ and the trees are validated by :mod:`._modelcheck` before a forest is built from
 
 from __future__ import annotations
 
+import errno
 import io
 import json
 import os
@@ -47,7 +48,13 @@ def write_model(path: str | PathLike, header: dict, arrays: dict[str, NDArray]) 
     text = json.dumps(header, allow_nan=False, sort_keys=True, indent=1).encode("utf-8")
     members = {"header": np.frombuffer(text, dtype=np.uint8), **arrays}
     folder = os.path.dirname(os.path.abspath(path))
-    fd, temporary = tempfile.mkstemp(prefix=".forestlab-", suffix=".tmp", dir=folder)
+    if not os.path.isdir(folder):
+        raise FileNotFoundError(errno.ENOENT, f"cannot save to {path!r}: the folder {folder!r} does not exist")
+    try:
+        fd, temporary = tempfile.mkstemp(prefix=".forestlab-", suffix=".tmp", dir=folder)
+    except OSError as exc:  # it would name the temporary file, not the folder
+        raise type(exc)(exc.errno, f"cannot save to {path!r}: cannot write into the folder {folder!r} "
+                                   f"({exc.strerror})") from None
     try:
         with os.fdopen(fd, "wb") as fh:
             np.savez(fh, **members)
