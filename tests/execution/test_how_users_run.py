@@ -71,10 +71,14 @@ def _check(out: str, err: str) -> None:
 
 
 def test_plain_script_without_a_main_guard(tmp_path):
+    """Also in Python's development mode with resource warnings as errors (the workers inherit both): nothing
+    is left unclosed at exit, in the script or its workers, and no resource is left for the tracker to
+    report."""
     (tmp_path / "analysis.py").write_text(ANALYSIS)
-    done = _run([sys.executable, "analysis.py"], cwd=tmp_path)
+    done = _run([sys.executable, "-X", "dev", "-W", "error::ResourceWarning", "analysis.py"], cwd=tmp_path)
     assert done.returncode == 0, done.stderr
     _check(done.stdout, done.stderr)
+    assert "Warning" not in done.stderr and "leaked" not in done.stderr, done.stderr
 
 
 def test_python_dash_c():
