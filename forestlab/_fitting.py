@@ -56,7 +56,7 @@ def prepare(settings: Settings, rng: Any, X: Any, y: Any,
                         classes=target.classes, feature_names=names if names is not None else default_names(X.shape[1]),
                         levels=levels, frame_labels=labels, case_weights=case_weights, X=X, y=target.values)
     provenance = Provenance(rules=rules, seed=root_seed(rng),
-                            fingerprint=data_fingerprint(X, target.values, case_weights), priors=priors,
+                            fingerprint=data_fingerprint(X, target.values, case_weights), class_priors=priors,
                             class_factors=factors)
     return view, provenance, training_data(view, provenance, settings.balance)
 

@@ -196,7 +196,7 @@ class Forest:
     replace = setting("replace", "Whether bootstrap draws are with replacement.")
     balance = setting("balance", 'How each tree\'s sample is drawn: None (plain bootstrap) or ``"classes"``.')
     class_priors = setting("class_priors", "The class priors setting; after fit, a dict label -> prior of every "
-                            "class (None if not set).", lambda f: f._grown.priors)
+                            "class (None if not set).", lambda f: f._grown.class_priors)
 
     @property
     def fitted(self) -> bool:

@@ -197,7 +197,7 @@ class Provenance:
         Root seed; tree ``b`` draws from ``SeedSequence(seed.entropy, spawn_key=seed.spawn_key + (b,))``.
     fingerprint : str
         SHA-256 of the training data as the trees saw them (:func:`~.fingerprint.data_fingerprint`).
-    priors : dict or None
+    class_priors : dict or None
         Label -> prior of every class when class priors were set (None without, or when a version-1 model
         file did not hold what they were).
     class_factors : dict or None
@@ -208,7 +208,7 @@ class Provenance:
     rules: GrowthRules
     seed: np.random.SeedSequence
     fingerprint: str
-    priors: dict | None = None
+    class_priors: dict | None = None
     class_factors: dict | None = None
 
 

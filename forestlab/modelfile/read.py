@@ -96,7 +96,7 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Stored
     provenance = Provenance(
         rules=GrowthRules(sampler=sampler, splitter=splitter, min_leaf=float(s["min_leaf"]),
                           depth_limit=s["depth_limit"], sample_size=s["sample_size"], replace=s["replace"]),
-        seed=check_seed(header), fingerprint=fingerprint, priors=priors, class_factors=factors)
+        seed=check_seed(header), fingerprint=fingerprint, class_priors=priors, class_factors=factors)
     trees = _trees(arrays)
     view = FittedForest(task=task, trees=tuple(trees), inbag=arrays["inbag"], classes=classes,
                         feature_names=names, levels=levels, frame_labels={k: tuple(v) for k, v in frame.items()},

@@ -82,7 +82,7 @@ def _header(stored: StoredForest, labels: dict | None, include_data: bool, array
                      "class_priors": None if spec is None else ("equal" if spec == "equal" else "given"),
                      "workers": s.workers,
                      "categorical": None if s.categorical is None else list(s.categorical)},
-        "class_priors": None if grown.priors is None else list(grown.priors.values()),
+        "class_priors": None if grown.class_priors is None else list(grown.class_priors.values()),
         "class_factors": None if grown.class_factors is None else list(grown.class_factors.values()),
         "sampler": _describe(rules.sampler, "sampler"), "splitter": _describe(rules.splitter, "splitter"),
         "seed": {"entropy": _seed_words(seed.entropy), "spawn_key": [int(k) for k in seed.spawn_key],
