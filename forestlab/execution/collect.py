@@ -114,7 +114,8 @@ def died_while(blocks: list[list[int]], lost: list[tuple[int, int]], waiting: in
             "were not grown and "
         return TreeGrowthError(
             "a worker process died unexpectedly before it started on any block (it could not start up, or was "
-            f"killed; anything it printed is on stderr); {what}no trees were kept",
+            f"killed; anything it printed is on stderr); {what}no trees were kept; should it keep happening, fit "
+            "with `workers=1` or give `executor=` a pool of your own",
             () if waiting is None else blocks[waiting])
     where = "; ".join(f"{span(blocks[j])} (block {j + 1} of {count}" + (f", worker pid {pid})" if pid else ")")
                       for j, pid in lost)

@@ -267,6 +267,21 @@ class TestFailures:
             assert pool.submit(int, "3").result() == 3  # the caller's pool still works
         assert leftover_segments() == []
 
+    def test_workers_that_cannot_start_say_what_to_do(self, monkeypatch):
+        """A worker that exits before it is ready (say, an interpreter that cannot import forestlab), and a
+        platform that cannot start processes at all: both errors end with what to do instead."""
+        X, y = _problem()
+        _pool._end_idle()   # no idle worker of an earlier fit: these must be started
+        monkeypatch.setattr(_pool, "worker_command", lambda: [sys.executable, "-c", "raise SystemExit(3)"])
+        with pytest.raises(fl.TreeGrowthError, match=r"died unexpectedly before it started on any block .* fit "
+                                                     r"with `workers=1` or give `executor=` a pool of your own"):
+            fl.Forest(trees=8, rng=5, workers=2).fit(X, y)
+        monkeypatch.setattr(_pool, "worker_command", lambda: [str(Path(sys.executable).parent / "no-such-python")])
+        with pytest.raises(RuntimeError, match=r"could not start worker processes for `workers=2` \(.*no-such-python"
+                                               r".*\); fit with `workers=1`, or give `executor=` a pool of your own"):
+            fl.Forest(trees=8, rng=5, workers=2).fit(X, y)
+        assert leftover_segments() == []
+
     def test_interrupt_from_the_callback_stops_the_workers(self, tmp_path):
         X, y = _problem()
         def progress(done, total):
