@@ -13,8 +13,8 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from ._fitting import grow, more_of_the_same, prepare, regrow
-from ._summary import fitted_summary
 from ._members import fitted_attribute, hand_off, setting, settings_repr, vote_shares
+from ._summary import fitted_summary
 from .analyses import dependence as _dependence
 from .analyses import importance as _importance
 from .analyses import proximity as _proximity

@@ -101,7 +101,6 @@ def out_of_bag(forest: FittedForest, stacklevel: int = 1) -> OutOfBag:
     return result
 
 
-# ------------------------------------------------------------------------------------- classification
 def known_out_of_bag(forest: FittedForest, cached: OutOfBag | None) -> OutOfBag | None:
     """``cached`` when given, else the OOB results computed now if the training data are there, else None.
 
@@ -115,6 +114,7 @@ def known_out_of_bag(forest: FittedForest, cached: OutOfBag | None) -> OutOfBag 
         return out_of_bag(forest)
 
 
+# ------------------------------------------------------------------------------------- classification
 def _class_pass(entries: _Entries, y: NDArray[np.int64], n: int, K: int, weights):
     """Vote counts (n, K) and the (weighted) error curve, accumulated tree by tree."""
     trees = entries.start.size - 1
