@@ -19,7 +19,7 @@ R = TypeVar("R")
 # the constructor's defaults, in its order (``settings_repr`` shows what differs)
 DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "depth_limit": None,
             "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None,
-            "balance": None, "class_weights": None, "executor": None, "progress": None}
+            "balance": None, "class_priors": None, "executor": None, "progress": None}
 
 
 def hand_off(analysis: Callable[Concatenate[FittedForest, P], R],

@@ -22,7 +22,7 @@ import forestlab
 PACKAGE = Path(forestlab.__file__).parent
 LEAVES = {"forestlab._warnings", "forestlab._version", "forestlab._paths"}
 FRONT = {"forestlab", "forestlab._forest", "forestlab._members", "forestlab._fitting", "forestlab._load",
-         "forestlab._crossval"}
+         "forestlab._crossval", "forestlab._summary"}
 
 # part -> the parts it may import (its own included)
 ALLOWED = {
