@@ -4,6 +4,7 @@ from ._crossval import cross_validated_error as cross_validated_error
 from ._forest import Forest as Forest
 from ._load import load as load
 from ._version import __version__ as __version__
+from ._warnings import FewTreesWarning as FewTreesWarning
 from ._warnings import ForestlabWarning as ForestlabWarning
 from ._warnings import IncompleteForestWarning as IncompleteForestWarning
 from ._warnings import NeverOutOfBagWarning as NeverOutOfBagWarning
@@ -16,6 +17,7 @@ from .analyses.proximity import classical_scaling as classical_scaling
 from .analyses.results import CrossValidatedError as CrossValidatedError
 from .analyses.results import DoubtfulCases as DoubtfulCases
 from .analyses.results import OutOfBag as OutOfBag
+from .analyses.uncertainty.variance import SamplingVariance as SamplingVariance
 from .engine.sampler import AllFeatures as AllFeatures
 from .engine.sampler import CandidateSampler as CandidateSampler
 from .engine.sampler import RandomSubset as RandomSubset
@@ -37,6 +39,7 @@ __all__ = [
     "Dependence",
     "DoubtfulCases",
     "EntropySplitter",
+    "FewTreesWarning",
     "Forest",
     "ForestlabWarning",
     "GiniSplitter",
@@ -48,6 +51,7 @@ __all__ = [
     "OverlapWarning",
     "ProximityMap",
     "RandomSubset",
+    "SamplingVariance",
     "SingleClassWarning",
     "SquaredErrorSplitter",
     "StoredComponent",

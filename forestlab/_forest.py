@@ -19,6 +19,7 @@ from .analyses import importance as _importance
 from .analyses import proximity as _proximity
 from .analyses.oob import out_of_bag
 from .analyses.results import OutOfBag
+from .analyses.uncertainty import variance as _variance
 from .analyses.view import FittedForest
 from .engine.presort import TrainingData
 from .engine.sampler import CandidateSampler
@@ -293,6 +294,7 @@ class Forest:
     proximity = hand_off(_proximity.proximity)
     outlyingness = hand_off(_proximity.outlyingness)
     proximity_map = hand_off(_proximity.proximity_map)
+    variance = hand_off(_variance.variance)
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:

@@ -6,8 +6,8 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 
 from __future__ import annotations
 
-__all__ = ["ForestlabWarning", "IncompleteForestWarning", "NeverOutOfBagWarning", "OverlapWarning",
-           "SingleClassWarning"]
+__all__ = ["FewTreesWarning", "ForestlabWarning", "IncompleteForestWarning", "NeverOutOfBagWarning",
+           "OverlapWarning", "SingleClassWarning"]
 
 
 class ForestlabWarning(UserWarning):
@@ -29,3 +29,10 @@ class NeverOutOfBagWarning(ForestlabWarning):
     """
 class IncompleteForestWarning(ForestlabWarning):
     """A loaded forest names a custom sampler or splitter that was not supplied: it predicts but cannot grow."""
+
+
+class FewTreesWarning(ForestlabWarning):
+    """Too few trees for a Monte Carlo estimate: its noise from the random trees is large against the estimate.
+
+    Grow more trees with ``add_trees``; the variance estimates need about as many trees as cases.
+    """

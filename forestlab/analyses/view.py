@@ -54,6 +54,10 @@ class FittedForest:
     y : ndarray, shape (n,), or None
         The training targets encoded: class indices (int64) or values (float64); None when not kept (read
         only, as ``X``).
+    replace : bool
+        Whether each tree's cases were drawn with replacement (the bootstrap) or without (subsampling).
+    balance : str or None
+        ``"classes"`` when every tree drew the same number of cases from each class, else None.
     """
 
     task: str
@@ -66,6 +70,8 @@ class FittedForest:
     case_weights: NDArray[np.float64] | None = None
     X: NDArray[np.float64] | None = None
     y: NDArray | None = None
+    replace: bool = True
+    balance: str | None = None
 
     def __post_init__(self) -> None:
         for owned in (self.inbag, self.case_weights):  # the forest's own arrays (X and y may be the caller's)

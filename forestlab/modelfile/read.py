@@ -99,7 +99,7 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Stored
     X, y = _training_data(arrays, classes, weights, provenance.fingerprint)
     view = FittedForest(task=task, trees=tuple(trees), inbag=arrays["inbag"], classes=classes,
                         feature_names=names, levels=levels, frame_labels={k: tuple(v) for k, v in frame.items()},
-                        case_weights=weights, X=X, y=y)
+                        case_weights=weights, X=X, y=y, replace=s["replace"], balance=settings.balance)
     oob = None
     if header.get("has_oob", False) is True:
         oob = oob_from_arrays(task, {k: v for k, v in arrays.items() if k.startswith("oob_")}, classes,

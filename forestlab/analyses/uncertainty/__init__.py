@@ -1,0 +1,17 @@
+"""How sure is each prediction: sampling variance, prediction intervals, prediction sets, doubtful labels.
+
+Everything here reads what a fitted forest already holds (the trees, their in-bag counts and the out-of-bag
+results), so nothing is refit:
+
+==============================  =====================================================================
+module                          holds
+==============================  =====================================================================
+:mod:`.draws`                   how the trees drew their cases, and the trees' centred predictions with
+                                the products of the in-bag counts that variance and jackknife+ read
+:mod:`.variance`                ``Forest.variance``: infinitesimal jackknife and jackknife-after-bootstrap
+                                (Wager, Hastie & Efron 2014; Wager & Athey 2018 for subsampling)
+:mod:`.printing`                the plain text tables the results print as
+==============================  =====================================================================
+
+This package's ``__init__`` imports nothing.
+"""
