@@ -17,6 +17,8 @@ from .analyses.proximity import classical_scaling as classical_scaling
 from .analyses.results import CrossValidatedError as CrossValidatedError
 from .analyses.results import DoubtfulCases as DoubtfulCases
 from .analyses.results import OutOfBag as OutOfBag
+from .analyses.uncertainty.intervals import PredictionIntervals as PredictionIntervals
+from .analyses.uncertainty.quantile import ConditionalQuantiles as ConditionalQuantiles
 from .analyses.uncertainty.variance import SamplingVariance as SamplingVariance
 from .engine.sampler import AllFeatures as AllFeatures
 from .engine.sampler import CandidateSampler as CandidateSampler
@@ -35,6 +37,7 @@ __all__ = [
     "AllFeatures",
     "CandidateSampler",
     "CartSplitter",
+    "ConditionalQuantiles",
     "CrossValidatedError",
     "Dependence",
     "DoubtfulCases",
@@ -49,6 +52,7 @@ __all__ = [
     "NeverOutOfBagWarning",
     "OutOfBag",
     "OverlapWarning",
+    "PredictionIntervals",
     "ProximityMap",
     "RandomSubset",
     "SamplingVariance",

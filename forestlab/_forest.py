@@ -19,6 +19,8 @@ from .analyses import importance as _importance
 from .analyses import proximity as _proximity
 from .analyses.oob import out_of_bag
 from .analyses.results import OutOfBag
+from .analyses.uncertainty import intervals as _intervals
+from .analyses.uncertainty import quantile as _quantile
 from .analyses.uncertainty import variance as _variance
 from .analyses.view import FittedForest
 from .engine.presort import TrainingData
@@ -295,6 +297,8 @@ class Forest:
     outlyingness = hand_off(_proximity.outlyingness)
     proximity_map = hand_off(_proximity.proximity_map)
     variance = hand_off(_variance.variance)
+    intervals = hand_off(_intervals.intervals, with_oob=True)
+    quantiles = hand_off(_quantile.quantiles)
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:

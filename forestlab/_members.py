@@ -24,10 +24,15 @@ DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "
             "balance": None, "class_weights": None, "executor": None, "progress": None}
 
 
-def hand_off(analysis: Callable[Concatenate[FittedForest, P], R]) -> Callable[Concatenate[Any, P], R]:
-    """A Forest method that gives ``analysis`` the fitted forest's view; the analysis's docstring is its own."""
+def hand_off(analysis: Callable[Concatenate[FittedForest, P], R], *,
+             with_oob: bool = False) -> Callable[Concatenate[Any, P], R]:
+    """A Forest method that gives ``analysis`` the fitted forest's view (and, ``with_oob``, its out-of-bag
+    results as ``oob=``: computed once and cached, or read from the model file); the analysis's docstring is
+    its own."""
     @functools.wraps(analysis)
     def method(self: Any, *args: P.args, **kwargs: P.kwargs) -> R:
+        if with_oob:
+            return analysis(self._fitted_view(), *args, oob=self.oob, **kwargs)
         return analysis(self._fitted_view(), *args, **kwargs)
     return method
 

@@ -10,6 +10,12 @@ module                          holds
                                 the products of the in-bag counts that variance and jackknife+ read
 :mod:`.variance`                ``Forest.variance``: infinitesimal jackknife and jackknife-after-bootstrap
                                 (Wager, Hastie & Efron 2014; Wager & Athey 2018 for subsampling)
+:mod:`.leaves`                  the leaf of every training case in every tree
+:mod:`.quantile`                ``Forest.quantiles``: quantile regression forest (Meinshausen 2006)
+:mod:`.intervals`               ``Forest.intervals``: quantile or jackknife+-after-bootstrap intervals
+                                (Kim, Xu & Barber 2020)
+:mod:`.conformal`               the (n + 1) rank rule, conformal p-values (Bates, Candes, Lei, Romano &
+                                Sesia 2023) and the rule of Benjamini & Hochberg (1995)
 :mod:`.printing`                the plain text tables the results print as
 ==============================  =====================================================================
 
