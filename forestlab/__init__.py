@@ -19,6 +19,7 @@ from .analyses.results import DoubtfulCases as DoubtfulCases
 from .analyses.results import OutOfBag as OutOfBag
 from .analyses.uncertainty.intervals import PredictionIntervals as PredictionIntervals
 from .analyses.uncertainty.quantile import ConditionalQuantiles as ConditionalQuantiles
+from .analyses.uncertainty.sets import PredictionSets as PredictionSets
 from .analyses.uncertainty.variance import SamplingVariance as SamplingVariance
 from .engine.sampler import AllFeatures as AllFeatures
 from .engine.sampler import CandidateSampler as CandidateSampler
@@ -53,6 +54,7 @@ __all__ = [
     "OutOfBag",
     "OverlapWarning",
     "PredictionIntervals",
+    "PredictionSets",
     "ProximityMap",
     "RandomSubset",
     "SamplingVariance",

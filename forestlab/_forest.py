@@ -21,6 +21,7 @@ from .analyses.oob import out_of_bag
 from .analyses.results import OutOfBag
 from .analyses.uncertainty import intervals as _intervals
 from .analyses.uncertainty import quantile as _quantile
+from .analyses.uncertainty import sets as _sets
 from .analyses.uncertainty import variance as _variance
 from .analyses.view import FittedForest
 from .engine.presort import TrainingData
@@ -299,6 +300,7 @@ class Forest:
     variance = hand_off(_variance.variance)
     intervals = hand_off(_intervals.intervals, with_oob=True)
     quantiles = hand_off(_quantile.quantiles)
+    prediction_sets = hand_off(_sets.prediction_sets, with_oob=True)
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:

@@ -14,6 +14,8 @@ module                          holds
 :mod:`.quantile`                ``Forest.quantiles``: quantile regression forest (Meinshausen 2006)
 :mod:`.intervals`               ``Forest.intervals``: quantile or jackknife+-after-bootstrap intervals
                                 (Kim, Xu & Barber 2020)
+:mod:`.sets`                    ``Forest.prediction_sets``: out-of-bag conformal sets with the adaptive
+                                score (Romano, Sesia & Candes 2020), marginal or by class
 :mod:`.conformal`               the (n + 1) rank rule, conformal p-values (Bates, Candes, Lei, Romano &
                                 Sesia 2023) and the rule of Benjamini & Hochberg (1995)
 :mod:`.printing`                the plain text tables the results print as
