@@ -10,6 +10,7 @@ from ._warnings import IncompleteForestWarning as IncompleteForestWarning
 from ._warnings import NeverOutOfBagWarning as NeverOutOfBagWarning
 from ._warnings import OverlapWarning as OverlapWarning
 from ._warnings import SingleClassWarning as SingleClassWarning
+from ._warnings import SmallTrustedSetWarning as SmallTrustedSetWarning
 from .analyses.dependence import Dependence as Dependence
 from .analyses.importance import Importance as Importance
 from .analyses.proximity import ProximityMap as ProximityMap
@@ -59,6 +60,7 @@ __all__ = [
     "RandomSubset",
     "SamplingVariance",
     "SingleClassWarning",
+    "SmallTrustedSetWarning",
     "SquaredErrorSplitter",
     "StoredComponent",
     "Tree",

@@ -7,7 +7,7 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 from __future__ import annotations
 
 __all__ = ["FewTreesWarning", "ForestlabWarning", "IncompleteForestWarning", "NeverOutOfBagWarning",
-           "OverlapWarning", "SingleClassWarning"]
+           "OverlapWarning", "SingleClassWarning", "SmallTrustedSetWarning"]
 
 
 class ForestlabWarning(UserWarning):
@@ -36,3 +36,7 @@ class FewTreesWarning(ForestlabWarning):
 
     Grow more trees with ``add_trees``; the variance estimates need about as many trees as cases.
     """
+
+
+class SmallTrustedSetWarning(ForestlabWarning):
+    """The trusted cases are too few for any conformal p-value to be small enough to flag a case."""

@@ -18,8 +18,11 @@ module                          holds
                                 score (Romano, Sesia & Candes 2020), marginal or by class
 :mod:`.conformal`               the (n + 1) rank rule, conformal p-values (Bates, Candes, Lei, Romano &
                                 Sesia 2023) and the rule of Benjamini & Hochberg (1995)
+:mod:`.doubt`                   ``OutOfBag.doubtful(fdr=..., trusted=...)``: doubtful labels at a false
+                                discovery rate, tested against trusted cases
 :mod:`.printing`                the plain text tables the results print as
 ==============================  =====================================================================
 
-This package's ``__init__`` imports nothing.
+This package's ``__init__`` imports nothing, so :mod:`forestlab.analyses.results` can use :mod:`.doubt` and
+:mod:`.printing` (which import no result class) without an import cycle.
 """
