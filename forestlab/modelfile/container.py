@@ -24,10 +24,13 @@ from numpy.typing import NDArray
 from .check import NODE_DTYPES, ModelFileError, field, int_field
 from .oob import oob_shapes
 
-__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "ModelFileError", "read_model", "write_model"]
+__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "LEAF_DTYPES", "ModelFileError", "READ_VERSIONS", "read_model",
+           "write_model"]
 
 FORMAT_NAME = "forestlab-forest"
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
+READ_VERSIONS = (1, 2)   # version 2 adds the optional member case_leaves (header field case_leaves)
+LEAF_DTYPES = ("<u2", "<u4")
 MAX_MEMBERS = 32
 MAX_HEADER_BYTES = 256 * 2**20
 NODE_MEMBERS = tuple(NODE_DTYPES)
@@ -128,8 +131,9 @@ def _read_header(zf: zipfile.ZipFile, infos: dict[str, zipfile.ZipInfo]) -> dict
     if not isinstance(header, dict) or header.get("format") != FORMAT_NAME:
         raise ModelFileError("the header does not name the forestlab forest format")
     version = field(header, "format_version", int)
-    if version != FORMAT_VERSION:
-        raise ModelFileError(f"format version {version} is not supported (this forestlab reads {FORMAT_VERSION})")
+    if version not in READ_VERSIONS:
+        raise ModelFileError(f"format version {version} is not supported (this forestlab reads versions "
+                             f"{', '.join(map(str, READ_VERSIONS))})")
     return header
 
 
@@ -162,6 +166,11 @@ def _member_shapes(header: dict) -> dict[str, tuple[str, tuple[int, ...]]]:
     if header.get("has_oob", False) is True:
         task = "classification" if labels is not None else "regression"
         shapes.update(oob_shapes(task, cases, trees, 0 if labels is None else shapes["classes"][1][0]))
+    leaves = field(header, "case_leaves", (str, type(None))) if header["format_version"] >= 2 else None
+    if leaves is not None:
+        if leaves not in LEAF_DTYPES:
+            raise ModelFileError(f"the header's case_leaves must be one of {LEAF_DTYPES} or null; got {leaves!r}")
+        shapes["case_leaves"] = (leaves, (trees, cases))
     return shapes
 
 

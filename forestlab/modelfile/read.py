@@ -27,6 +27,7 @@ from ..intake.validation import resolve_categorical
 from .check import (
     TREE_FIELDS,
     ModelFileError,
+    check_case_leaves,
     check_class_labels,
     check_class_vector,
     check_feature_names,
@@ -97,13 +98,19 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Stored
         class_weights=None if class_vector is None else dict(zip(classes.tolist(), class_vector.tolist())))
     trees = _trees(arrays)
     X, y = _training_data(arrays, classes, weights, provenance.fingerprint)
+    leaves = arrays.get("case_leaves")
+    if leaves is not None:
+        check_case_leaves(leaves, np.array([tree.leaves for tree in trees]))
     view = FittedForest(task=task, trees=tuple(trees), inbag=arrays["inbag"], classes=classes,
                         feature_names=names, levels=levels, frame_labels={k: tuple(v) for k, v in frame.items()},
-                        case_weights=weights, X=X, y=y, replace=s["replace"], balance=settings.balance)
+                        case_weights=weights, X=X, y=y, replace=s["replace"], balance=settings.balance,
+                        case_leaves=leaves)
     oob = None
     if header.get("has_oob", False) is True:
         oob = oob_from_arrays(task, {k: v for k, v in arrays.items() if k.startswith("oob_")}, classes,
                               len(trees), weights is not None)
+        if y is None:       # the out-of-bag results keep the targets, encoded alike
+            view = dataclasses.replace(view, y=arrays["oob_observed"])
     return StoredForest(view=view, settings=settings, provenance=provenance, oob=oob)
 
 

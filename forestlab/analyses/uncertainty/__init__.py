@@ -10,7 +10,7 @@ module                          holds
                                 the products of the in-bag counts that variance and jackknife+ read
 :mod:`.variance`                ``Forest.variance``: infinitesimal jackknife and jackknife-after-bootstrap
                                 (Wager, Hastie & Efron 2014; Wager & Athey 2018 for subsampling)
-:mod:`.leaves`                  the leaf of every training case in every tree
+:mod:`.leaves`                  the leaf of every training case in every tree (kept in model files)
 :mod:`.quantile`                ``Forest.quantiles``: quantile regression forest (Meinshausen 2006)
 :mod:`.intervals`               ``Forest.intervals``: quantile or jackknife+-after-bootstrap intervals
                                 (Kim, Xu & Barber 2020)

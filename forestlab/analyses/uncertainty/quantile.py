@@ -176,8 +176,9 @@ def _leaf_index(forest: FittedForest, y: NDArray[np.float64], leaf_counts: str):
     try:
         ranks = training_leaves(forest)
     except RuntimeError:
-        raise RuntimeError("quantiles need the leaf of every training case, found from the training data, which "
-                           "this forest does not keep") from None
+        raise RuntimeError("quantiles need the leaf of every training case: this forest was loaded from a file "
+                           "without the training data that does not record them (a format version 1 file); "
+                           "save it again from a forest that keeps its data") from None
     order = np.argsort(y, kind="stable")
     y_rank = np.empty(y.size, dtype=np.int32)
     y_rank[order] = np.arange(y.size)
