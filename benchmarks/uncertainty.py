@@ -43,6 +43,9 @@ sys.path.insert(0, str(REPO))
 import forestlab as fl  # noqa: E402
 from forestlab.synthetic import friedman1, twonorm  # noqa: E402
 
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from run import _status_kib  # noqa: E402  (benchmarks/run.py: a kB field of /proc/self/status)
+
 OUT = REPO / "benchmarks" / "out"
 PLANS = {"full": {"n": 10_000, "trees": 500}, "quick": {"n": 2_000, "trees": 200}}
 ANALYSES = {
@@ -55,14 +58,6 @@ ANALYSES = {
 TARGETS = {"variance": (1.0, 0.5), "intervals, jackknife+": (1.0, None), "intervals, quantile": (1.0, None),
            "prediction sets": (1.0, None)}
 MEMORY_TARGET_MB = {"variance": 200}
-
-
-def _status_kib(field: str) -> int:
-    with open("/proc/self/status") as f:
-        for line in f:
-            if line.startswith(field + ":"):
-                return int(line.split()[1])
-    raise KeyError(field)
 
 
 def _measured(call):

@@ -10,7 +10,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .uncertainty.doubt import label_doubts
-from .uncertainty.printing import cell, table
+from .uncertainty.outputs import cell, table
 
 __all__ = ["CrossValidatedError", "DoubtfulCases", "OutOfBag"]
 

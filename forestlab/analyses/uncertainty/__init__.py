@@ -20,9 +20,9 @@ module                          holds
                                 Sesia 2023) and the rule of Benjamini & Hochberg (1995)
 :mod:`.doubt`                   ``OutOfBag.doubtful(fdr=..., trusted=...)``: doubtful labels at a false
                                 discovery rate, tested against trusted cases
-:mod:`.printing`                the plain text tables the results print as
+:mod:`.outputs`                 what the results share: read-only arrays, the text tables they print as
 ==============================  =====================================================================
 
 This package's ``__init__`` imports nothing, so :mod:`forestlab.analyses.results` can use :mod:`.doubt` and
-:mod:`.printing` (which import no result class) without an import cycle.
+:mod:`.outputs` (which import no result class) without an import cycle.
 """

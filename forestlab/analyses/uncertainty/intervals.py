@@ -26,7 +26,7 @@ from ..results import OutOfBag
 from ..view import FittedForest
 from .conformal import check_level, upper_rank
 from .draws import Draws, oob_deviations
-from .printing import SHOWN_ROWS, cell, more_rows, table
+from .outputs import SHOWN_ROWS, cell, more_rows, read_only, table
 from .quantile import quantile_values
 
 __all__ = ["PredictionIntervals", "intervals"]
@@ -64,8 +64,7 @@ class PredictionIntervals:
     cases: int
 
     def __post_init__(self) -> None:
-        for arr in (self.lower, self.upper, self.prediction):
-            arr.flags.writeable = False
+        read_only(self)
 
     def __len__(self) -> int:
         return int(self.lower.size)

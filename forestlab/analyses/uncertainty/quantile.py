@@ -31,7 +31,7 @@ from numpy.typing import ArrayLike, NDArray
 from ..cases import ROW_BUDGET, row_blocks
 from ..view import FittedForest
 from .leaves import new_leaves, training_leaves
-from .printing import SHOWN_ROWS, cell, more_rows, table
+from .outputs import SHOWN_ROWS, cell, more_rows, read_only, table
 
 __all__ = ["ConditionalQuantiles", "LEAF_COUNTS", "quantile_values", "quantiles"]
 
@@ -65,8 +65,7 @@ class ConditionalQuantiles:
     cases: int
 
     def __post_init__(self) -> None:
-        for arr in (self.probabilities, self.values, self.prediction):
-            arr.flags.writeable = False
+        read_only(self)
 
     def __len__(self) -> int:
         return int(self.values.shape[0])

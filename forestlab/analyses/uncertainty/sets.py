@@ -36,7 +36,7 @@ from ..oob import out_of_bag
 from ..results import OutOfBag
 from ..view import FittedForest
 from .conformal import check_level, rank_bound
-from .printing import SHOWN_ROWS, more_rows, table
+from .outputs import SHOWN_ROWS, more_rows, read_only, table
 
 __all__ = ["PredictionSets", "adaptive_scores", "prediction_sets"]
 
@@ -72,8 +72,7 @@ class PredictionSets:
     calibration: NDArray[np.int64]
 
     def __post_init__(self) -> None:
-        for arr in (self.members, self.shares, self.thresholds, self.calibration):
-            arr.flags.writeable = False
+        read_only(self)
 
     def __len__(self) -> int:
         return int(self.members.shape[0])

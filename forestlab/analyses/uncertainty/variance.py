@@ -31,7 +31,7 @@ from numpy.typing import NDArray
 from ..._warnings import FewTreesWarning
 from ..view import FittedForest
 from .draws import Draws, centred_predictions
-from .printing import SHOWN_ROWS, cell, more_rows, table
+from .outputs import SHOWN_ROWS, cell, more_rows, read_only, table
 
 __all__ = ["SamplingVariance", "variance"]
 
@@ -90,9 +90,7 @@ class SamplingVariance:
     classes: NDArray | None = None
 
     def __post_init__(self) -> None:
-        for value in vars(self).values():
-            if isinstance(value, np.ndarray):
-                value.flags.writeable = False
+        read_only(self)
 
     @property
     def standard_error(self) -> NDArray[np.float64]:

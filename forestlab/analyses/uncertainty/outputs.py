@@ -1,4 +1,5 @@
-"""The plain text tables that result objects print as: a header row and aligned columns, numbers right."""
+"""What the result objects of the uncertainty analyses share: read-only arrays, and the plain text tables they
+print as (a header row and aligned columns, numbers right)."""
 
 from __future__ import annotations
 
@@ -7,10 +8,17 @@ from collections.abc import Sequence
 
 import numpy as np
 
-__all__ = ["SHOWN_ROWS", "cell", "more_rows", "table"]
+__all__ = ["SHOWN_ROWS", "cell", "more_rows", "read_only", "table"]
 
 # Rows a result prints (its arrays always hold every row).
 SHOWN_ROWS = 10
+
+
+def read_only(result: object) -> None:
+    """Mark every array attribute of ``result`` read-only (a result object's arrays are its record)."""
+    for value in vars(result).values():
+        if isinstance(value, np.ndarray):
+            value.flags.writeable = False
 
 
 def cell(value: object, digits: int = 4) -> str:
