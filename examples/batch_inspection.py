@@ -76,6 +76,42 @@ def main() -> None:
     print(f"new batches with a split vote (30-70% 'rework'), worth a second inspection: {close.size}")
     for i in close[:8]:
         print(f"  batch {i:4d}: {share[i]:.0%} of trees say rework; lab graded {str(new_grade[i])!r}")
+    how_sure(forest, misgraded, new_X, new_grade)
+
+
+# Level of the prediction sets, false discovery rate of the doubtful grades, and how many past grades a second
+# grader confirmed (drawn at random among the correct ones of the invented data).
+SET_LEVEL = 0.9
+FDR = 0.1
+CONFIRMED = 1000
+
+
+def how_sure(forest: fl.Forest, misgraded: np.ndarray, new_X: pd.DataFrame, new_grade: np.ndarray) -> None:
+    """How sure the forest is about each new batch (conformal prediction sets from the out-of-bag votes), and
+    which past grades are doubtful at a stated false discovery rate (conformal p-values against confirmed
+    grades)."""
+    print(f"\n-- how sure: {SET_LEVEL:.0%} prediction sets (out-of-bag conformal, coverage within each grade) --")
+    sets = forest.prediction_sets(new_X, level=SET_LEVEL, by_class=True, rng=5)
+    rework = list(forest.classes).index("rework")
+    for i in (0, 1, 2, 3, 4, 5):
+        print(f"  new batch {i}: forest says {str(forest.classes[np.argmax(sets.shares[i])])!r} "
+              f"({sets.shares[i, rework]:.0%} of trees say rework); plausible grades: "
+              f"{{{', '.join(map(str, sets.labels(i)))}}}; lab graded {str(new_grade[i])!r}")
+    one = int(np.count_nonzero(sets.size == 1))
+    print(f"on the 500 new batches: {one} sets name one grade, {sets.full} both, {sets.empty} none; they hold "
+          f"the lab's grade for {sets.covers(new_grade).mean():.1%} (nominal {SET_LEVEL:.0%})")
+    rng = np.random.default_rng(7)
+    confirmed = rng.choice(np.flatnonzero(~misgraded), CONFIRMED, replace=False)
+    doubtful = forest.oob.doubtful(fdr=FDR, trusted=confirmed)
+    print(f"\n-- doubtful past grades at a false discovery rate of {FDR:.0%} --")
+    print(f"a second grader confirmed {CONFIRMED} randomly chosen past grades; the other "
+          f"{doubtful.tested} are tested against them")
+    print(doubtful)
+    found = int(np.count_nonzero(misgraded[doubtful.case]))
+    print(f"{found} of these {len(doubtful)} were deliberately misgraded in the invented data (the expected "
+          f"share of right grades among the flagged is at most {FDR:.0%})")
+    print("Caution: validate on your own data; a model does not replace the lab's judgement or the rules that "
+          "apply where you work.")
 
 
 if __name__ == "__main__":

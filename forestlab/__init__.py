@@ -5,11 +5,13 @@ from ._forest import Forest as Forest
 from ._load import load as load
 from ._version import __version__ as __version__
 from ._warnings import CandidatesCappedWarning as CandidatesCappedWarning
+from ._warnings import FewTreesWarning as FewTreesWarning
 from ._warnings import ForestlabWarning as ForestlabWarning
 from ._warnings import IncompleteForestWarning as IncompleteForestWarning
 from ._warnings import NeverOutOfBagWarning as NeverOutOfBagWarning
 from ._warnings import OverlapWarning as OverlapWarning
 from ._warnings import SingleClassWarning as SingleClassWarning
+from ._warnings import SmallTrustedSetWarning as SmallTrustedSetWarning
 from .analyses.dependence import Dependence as Dependence
 from .analyses.importance import Importance as Importance
 from .analyses.proximity import ProximityMap as ProximityMap
@@ -17,6 +19,10 @@ from .analyses.proximity import classical_scaling as classical_scaling
 from .analyses.results import CrossValidatedError as CrossValidatedError
 from .analyses.results import DoubtfulCases as DoubtfulCases
 from .analyses.results import OutOfBag as OutOfBag
+from .analyses.uncertainty.intervals import PredictionIntervals as PredictionIntervals
+from .analyses.uncertainty.quantile import ConditionalQuantiles as ConditionalQuantiles
+from .analyses.uncertainty.sets import PredictionSets as PredictionSets
+from .analyses.uncertainty.variance import SamplingVariance as SamplingVariance
 from .engine.sampler import AllFeatures as AllFeatures
 from .engine.sampler import CandidateSampler as CandidateSampler
 from .engine.sampler import RandomSubset as RandomSubset
@@ -35,10 +41,12 @@ __all__ = [
     "CandidatesCappedWarning",
     "CandidateSampler",
     "CartSplitter",
+    "ConditionalQuantiles",
     "CrossValidatedError",
     "Dependence",
     "DoubtfulCases",
     "EntropySplitter",
+    "FewTreesWarning",
     "Forest",
     "ForestlabWarning",
     "GiniSplitter",
@@ -48,9 +56,13 @@ __all__ = [
     "NeverOutOfBagWarning",
     "OutOfBag",
     "OverlapWarning",
+    "PredictionIntervals",
+    "PredictionSets",
     "ProximityMap",
     "RandomSubset",
+    "SamplingVariance",
     "SingleClassWarning",
+    "SmallTrustedSetWarning",
     "SquaredErrorSplitter",
     "StoredComponent",
     "Tree",

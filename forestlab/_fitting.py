@@ -54,7 +54,8 @@ def prepare(settings: Settings, rng: Any, X: Any, y: Any,
     priors, factors = priors_and_factors(settings, target, case_weights)
     view = FittedForest(task=target.task, trees=(), inbag=np.zeros((0, X.shape[0]), dtype=np.uint8),
                         classes=target.classes, feature_names=names if names is not None else default_names(X.shape[1]),
-                        levels=levels, frame_labels=labels, case_weights=case_weights, X=X, y=target.values)
+                        levels=levels, frame_labels=labels, case_weights=case_weights, X=X, y=target.values,
+                        replace=rules.replace, balance=settings.balance)
     provenance = Provenance(rules=rules, seed=root_seed(rng),
                             fingerprint=data_fingerprint(X, target.values, case_weights), class_priors=priors,
                             class_factors=factors)

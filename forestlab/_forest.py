@@ -13,11 +13,9 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from ._fitting import grow, more_of_the_same, prepare, regrow
-from ._members import fitted_attribute, hand_off, setting, settings_repr, vote_shares
+from ._handoffs import HandOffs
+from ._members import fitted_attribute, setting, settings_repr, vote_shares
 from ._summary import fitted_summary
-from .analyses import dependence as _dependence
-from .analyses import importance as _importance
-from .analyses import proximity as _proximity
 from .analyses.oob import known_out_of_bag, out_of_bag
 from .analyses.results import OutOfBag
 from .analyses.view import FittedForest
@@ -26,12 +24,10 @@ from .engine.sampler import CandidateSampler
 from .engine.seeding import check_rng
 from .engine.splitter import CartSplitter
 from .engine.tree import Tree, tree_values
-from .export import onnx_model as _onnx
 from .intake.settings import Provenance, Settings, check_settings
 from .intake.validation import int_at_least
 from .modelfile.stored import StoredForest
 from .modelfile.write import write_forest
-from .report import write as _report
 
 __all__ = ["Forest"]
 
@@ -49,7 +45,7 @@ def _assembled(settings: Settings, rng: Any, stored: StoredForest | None = None,
     return forest
 
 
-class Forest:
+class Forest(HandOffs):
     """Bagged CART trees or a random forest, for classification or regression.
 
     Every tree is grown on its own bootstrap sample (``trees`` samples of ``sample_size`` cases drawn with
@@ -300,17 +296,7 @@ class Forest:
             return self.classes[np.argmax(self.votes(X), axis=1)]
         return self.per_tree(X).mean(axis=0)
 
-    # ----------------------------------------------------------------------------------------- analyses
-    importance = hand_off(_importance.importance)
-    partial_dependence = hand_off(_dependence.partial_dependence)
-    proximity = hand_off(_proximity.proximity)
-    outlyingness = hand_off(_proximity.outlyingness)
-    proximity_map = hand_off(_proximity.proximity_map)
-
     # ----------------------------------------------------------------------------------------- files
-    to_onnx = hand_off(_onnx.to_onnx, of="_stored")
-    report = hand_off(_report.report, of="_stored")
-
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
         """Write the fitted forest to ``path`` (one ``.npz`` file; see docs/file-format.md).
 
@@ -339,5 +325,3 @@ class Forest:
 def _read_only(arr: NDArray) -> NDArray:
     arr.flags.writeable = False
     return arr
-
-

@@ -22,12 +22,16 @@ DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "
             "balance": None, "class_priors": None, "executor": None, "progress": None}
 
 
-def hand_off(analysis: Callable[Concatenate[FittedForest, P], R],
-             of: str = "_fitted_view") -> Callable[Concatenate[Any, P], R]:
+def hand_off(analysis: Callable[Concatenate[FittedForest, P], R], of: str = "_fitted_view", *,
+             with_oob: bool = False) -> Callable[Concatenate[Any, P], R]:
     """A Forest method that gives ``analysis`` the fitted forest's view (or what the Forest method ``of``
-    returns, e.g. ``"_stored"``: view, settings, provenance and OOB results); the docstring is the analysis's."""
+    returns, e.g. ``"_stored"``: view, settings, provenance and OOB results) and, ``with_oob``, its out-of-bag
+    results as ``oob=`` (computed once and cached, or read from the model file); the docstring is the
+    analysis's."""
     @functools.wraps(analysis)
     def method(self: Any, *args: P.args, **kwargs: P.kwargs) -> R:
+        if with_oob:
+            return analysis(getattr(self, of)(), *args, oob=self.oob, **kwargs)
         return analysis(getattr(self, of)(), *args, **kwargs)
     return method
 

@@ -6,8 +6,8 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 
 from __future__ import annotations
 
-__all__ = ["CandidatesCappedWarning", "ForestlabWarning", "IncompleteForestWarning", "NeverOutOfBagWarning",
-           "OverlapWarning", "SingleClassWarning"]
+__all__ = ["CandidatesCappedWarning", "FewTreesWarning", "ForestlabWarning", "IncompleteForestWarning",
+           "NeverOutOfBagWarning", "OverlapWarning", "SingleClassWarning", "SmallTrustedSetWarning"]
 
 
 class ForestlabWarning(UserWarning):
@@ -35,3 +35,14 @@ class IncompleteForestWarning(ForestlabWarning):
 
 class CandidatesCappedWarning(ForestlabWarning):
     """A sampler was asked for more candidate features than the data have: every feature is a candidate."""
+
+
+class FewTreesWarning(ForestlabWarning):
+    """Too few trees for a Monte Carlo estimate: its noise from the random trees is large against the estimate.
+
+    Grow more trees with ``add_trees``; the variance estimates need about as many trees as cases.
+    """
+
+
+class SmallTrustedSetWarning(ForestlabWarning):
+    """The trusted cases are too few for any conformal p-value to be small enough to flag a case."""

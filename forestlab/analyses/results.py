@@ -4,9 +4,13 @@ from __future__ import annotations
 
 import numbers
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
+
+from .uncertainty.doubt import label_doubts
+from .uncertainty.outputs import cell, table
 
 __all__ = ["CrossValidatedError", "DoubtfulCases", "OutOfBag"]
 
@@ -40,6 +44,12 @@ class DoubtfulCases:
         ``"classification"`` or ``"regression"``.
     rule : str
         How the cases were selected, in words.
+    p_value : ndarray of float64, shape (k,), or None
+        With ``doubtful(fdr=..., trusted=...)``: each case's conformal p-value against the trusted cases.
+    tested : int or None
+        With ``fdr``: the number of cases tested (untrusted, out-of-bag at least once).
+    fdr : float or None
+        With ``fdr``: the false discovery rate the selection controls.
     """
 
     case: NDArray[np.intp]
@@ -49,6 +59,9 @@ class DoubtfulCases:
     coverage: NDArray[np.int64]
     task: str
     rule: str
+    p_value: NDArray[np.float64] | None = None
+    tested: int | None = None
+    fdr: float | None = None
 
     def __post_init__(self) -> None:
         _readonly(self)
@@ -61,26 +74,19 @@ class DoubtfulCases:
         head = ["case", "observed", "oob mean" if regression else "oob label",
                 "z margin" if regression else "margin", "oob trees"]
         shown = min(len(self), SHOWN_ROWS)
-        cells = [[str(int(c)), _cell(o), _cell(p), f"{m:+.3f}", str(int(t))]
+        cells = [[str(int(c)), cell(o), cell(p), f"{m:+.3f}", str(int(t))]
                  for c, o, p, m, t in zip(self.case[:shown], self.observed[:shown], self.out_of_bag[:shown],
                                           self.margin[:shown], self.coverage[:shown])]
-        widths = [max([len(h)] + [len(row[j]) for row in cells]) for j, h in enumerate(head)]
-        align = [str.rjust, str.ljust, str.ljust, str.rjust, str.rjust]
+        if self.p_value is not None:
+            head.append("p-value")
+            cells = [row + [f"{p:.4f}"] for row, p in zip(cells, self.p_value[:shown])]
         lines = [f"{len(self)} doubtful case{'s' if len(self) != 1 else ''} ({self.rule}), most doubtful first"]
-        if cells:
-            lines += ["  ".join(f(h, w) for f, h, w in zip(align, head, widths))]
-            lines += ["  ".join(f(c, w) for f, c, w in zip(align, row, widths)) for row in cells]
+        lines += table(head, cells, left=(1, 2))
         if len(self) > shown:
             lines.append(f"... and {len(self) - shown} more (all of them are in the arrays)")
         return "\n".join(lines)
 
     __repr__ = __str__
-
-
-def _cell(value: object) -> str:
-    if isinstance(value, numbers.Real) and not isinstance(value, (numbers.Integral, np.bool_)):
-        return f"{float(value):.4g}"
-    return str(value)
 
 
 @dataclass(frozen=True, eq=False)
@@ -172,7 +178,8 @@ class OutOfBag:
         what = "misclassification rate" if self.task == "classification" else "mean squared error"
         return f"OutOfBag({self.task}, {n} cases, {trees} trees, {what} {self.error:.4g})"
 
-    def doubtful(self, threshold: float = 0.0, top: int | None = None) -> DoubtfulCases:
+    def doubtful(self, threshold: float = 0.0, top: int | None = None, *, fdr: float | None = None,
+                 trusted: Any = None) -> DoubtfulCases:
         """The cases to look at first: possible label errors, outliers and borderline cases.
 
         Parameters
@@ -181,13 +188,38 @@ class OutOfBag:
             Classification: cases with margin below ``threshold`` (the default lists the cases whose OOB
             vote is wrong), lowest margin first. Regression: cases whose standardised OOB residual
             exceeds ``threshold`` in absolute value, largest first (the default lists every case, ranked;
-            pass ``threshold=2`` or ``top``). Ties keep row order. Cases never OOB are left out.
+            pass ``threshold=2`` or ``top``). Ties keep row order. Cases never OOB are left out. Not used
+            with ``fdr``.
         top : int or None
             Keep at most this many cases.
+        fdr : float in (0, 1), optional
+            Select instead the cases whose recorded label (value) is doubtful at this false discovery rate:
+            every case not in ``trusted`` gets a conformal p-value against the ``trusted`` cases of its
+            recorded class, from the OOB vote share of its recorded label (regression: against all trusted
+            cases, from the absolute OOB residual), ``p = (1 + #{trusted with a score at least as strange})
+            / (t + 1)``; the Benjamini & Hochberg (1995) rule at level ``fdr`` over the ``m`` tested cases
+            selects them (smallest p-value first). Such p-values are valid and positively dependent (Bates,
+            Candes, Lei, Romano & Sesia 2023, "Testing for outliers with conformal p-values", Annals of
+            Statistics 51), so the expected share of correct labels among the selected is at most ``fdr``,
+            provided the trusted cases were picked without looking at the forest's votes (for instance a
+            random sample sent back to be checked) and hold right labels.
+        trusted : array of int or bool, optional
+            With ``fdr``: the training cases whose labels are known to be right, as indices or a mask.
+            Ranking cases against the other training cases cannot serve instead: among ``n`` the case of
+            the ``k``-th strangest score gets ``p`` about ``k / n``, which never passes ``k q / n``.
 
         Returns
         -------
         DoubtfulCases
+
+        Warns
+        -----
+        SmallTrustedSetWarning
+            When some class's tested cases cannot be selected at all: with ``t`` trusted cases of the class
+            the smallest p-value is ``1 / (t + 1)``, and Benjamini-Hochberg selects a p-value only if it is
+            at most ``k q / m`` for the ``k`` cases selected together, so at most ``q`` (when all ``m`` are
+            selected). It warns when ``1 / (t + 1) > q``; even above that, ``k`` cases are selected together
+            only if ``k >= m / (q (t + 1))``, so small trusted sets find errors only when there are many.
         """
         if isinstance(threshold, (bool, np.bool_)) or not isinstance(threshold, numbers.Real) \
                 or not np.isfinite(threshold):
@@ -195,6 +227,8 @@ class OutOfBag:
         if top is not None and (isinstance(top, (bool, np.bool_)) or not isinstance(top, numbers.Integral)
                                 or top < 0):
             raise ValueError(f"`top` must be None or a non-negative int; got {top!r}")
+        if fdr is not None or trusted is not None:
+            return DoubtfulCases(**label_doubts(self, fdr, trusted, threshold, top))
         covered = self.coverage > 0
         if self.task == "classification":
             chosen = np.flatnonzero(covered & (np.where(covered, self.margins, 0.0) < threshold))

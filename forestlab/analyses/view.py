@@ -52,8 +52,16 @@ class FittedForest:
         The training predictors as the trees saw them (category codes); None when not kept. This can be
         the caller's own array (a C-ordered float64 ``X`` is not copied): read it, never write it.
     y : ndarray, shape (n,), or None
-        The training targets encoded: class indices (int64) or values (float64); None when not kept (read
-        only, as ``X``).
+        The training targets encoded: class indices (int64) or values (float64), read only as ``X``; kept
+        also by a model file saved without the data but with its out-of-bag results; None otherwise.
+    replace : bool
+        Whether each tree's cases were drawn with replacement (the bootstrap) or without (subsampling).
+    balance : str or None
+        ``"classes"`` when every tree drew the same number of cases from each class, else None.
+    case_leaves : ndarray of uint16 or uint32, shape (trees, n), or None
+        The leaf (its rank among the tree's leaves, in node order) every training case reaches in every tree,
+        as read from a model file saved without the training data; None otherwise (then computed from ``X``
+        when an analysis needs it).
     """
 
     task: str
@@ -66,9 +74,13 @@ class FittedForest:
     case_weights: NDArray[np.float64] | None = None
     X: NDArray[np.float64] | None = None
     y: NDArray | None = None
+    replace: bool = True
+    balance: str | None = None
+    case_leaves: NDArray | None = None
 
     def __post_init__(self) -> None:
-        for owned in (self.inbag, self.case_weights):  # the forest's own arrays (X and y may be the caller's)
+        # the forest's own arrays (X and y may be the caller's)
+        for owned in (self.inbag, self.case_weights, self.case_leaves):
             if owned is not None:
                 owned.flags.writeable = False
 

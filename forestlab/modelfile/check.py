@@ -13,8 +13,9 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["ModelFileError", "check_class_labels", "check_class_numbers", "check_classes", "check_feature_names",
-           "check_finite", "check_fingerprint", "check_levels", "check_seed", "check_trees", "field", "int_field"]
+__all__ = ["ModelFileError", "check_case_leaves", "check_class_labels", "check_class_numbers", "check_classes",
+           "check_feature_names", "check_finite", "check_fingerprint", "check_levels", "check_seed", "check_trees",
+           "field", "int_field"]
 
 # dtypes of the node arrays, as written (little-endian); a file with any other dtype is refused
 NODE_DTYPES = {"feature": "<i4", "threshold": "<f8", "left": "<i4", "right": "<i4", "value": "<f8",
@@ -158,6 +159,12 @@ def check_trees(nodes: dict[str, NDArray], offsets: NDArray[np.int64], features:
         raise ModelFileError("the tree offsets must start at 0, rise by at least 1 and end at the node count")
     _check_links(nodes, offsets, features)
     _check_node_values(nodes, offsets, classes, categories)
+
+
+def check_case_leaves(ranks: NDArray, leaves: NDArray[np.int64]) -> None:
+    """Every training case's leaf rank in tree ``b`` is below that tree's number of leaves ``leaves[b]``."""
+    if ranks.size and np.any(ranks.max(axis=1, initial=0).astype(np.int64) >= leaves):
+        raise ModelFileError("a training case's leaf number lies beyond its tree's leaves")
 
 
 # ------------------------------------------------------------------------------------------------ header fields

@@ -25,12 +25,15 @@ from numpy.typing import NDArray
 from .check import NODE_DTYPES, ModelFileError, field, int_field
 from .oob import oob_shapes
 
-__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "READ_VERSIONS", "ModelFileError", "read_model", "write_model"]
+__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "LEAF_DTYPES", "ModelFileError", "READ_VERSIONS", "read_model",
+           "write_model"]
 
 FORMAT_NAME = "forestlab-forest"
 FORMAT_VERSION = 2
-#: Versions this forestlab reads: version 1 named the class priors "class weights" (see docs/file-format.md).
+#: Versions this forestlab reads. Version 2 names the class priors (version 1 called them "class weights")
+#: and adds the optional member case_leaves (header field case_leaves); see docs/file-format.md.
 READ_VERSIONS = (1, 2)
+LEAF_DTYPES = ("<u2", "<u4")
 MAX_MEMBERS = 32
 MAX_HEADER_BYTES = 256 * 2**20
 NODE_MEMBERS = tuple(NODE_DTYPES)
@@ -172,6 +175,11 @@ def _member_shapes(header: dict) -> dict[str, tuple[str, tuple[int, ...]]]:
     if header.get("has_oob", False) is True:
         task = "classification" if labels is not None else "regression"
         shapes.update(oob_shapes(task, cases, trees, 0 if labels is None else shapes["classes"][1][0]))
+    leaves = field(header, "case_leaves", (str, type(None))) if header["format_version"] >= 2 else None
+    if leaves is not None:
+        if leaves not in LEAF_DTYPES:
+            raise ModelFileError(f"the header's case_leaves must be one of {LEAF_DTYPES} or null; got {leaves!r}")
+        shapes["case_leaves"] = (leaves, (trees, cases))
     return shapes
 
 

@@ -27,6 +27,7 @@ from ..intake.validation import resolve_categorical
 from .check import (
     TREE_FIELDS,
     ModelFileError,
+    check_case_leaves,
     check_class_labels,
     check_class_numbers,
     check_feature_names,
@@ -98,13 +99,19 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Stored
                           depth_limit=s["depth_limit"], sample_size=s["sample_size"], replace=s["replace"]),
         seed=check_seed(header), fingerprint=fingerprint, class_priors=priors, class_factors=factors)
     trees = _trees(arrays)
+    leaves = arrays.get("case_leaves")
+    if leaves is not None:
+        check_case_leaves(leaves, np.array([tree.leaves for tree in trees]))
     view = FittedForest(task=task, trees=tuple(trees), inbag=arrays["inbag"], classes=classes,
                         feature_names=names, levels=levels, frame_labels={k: tuple(v) for k, v in frame.items()},
-                        case_weights=weights, X=X, y=y)
+                        case_weights=weights, X=X, y=y, replace=s["replace"], balance=settings.balance,
+                        case_leaves=leaves)
     oob = None
     if header.get("has_oob", False) is True:
         oob = oob_from_arrays(task, {k: v for k, v in arrays.items() if k.startswith("oob_")}, classes,
                               len(trees), weights is not None)
+        if y is None:       # the out-of-bag results keep the targets, encoded alike
+            view = dataclasses.replace(view, y=arrays["oob_observed"])
     return StoredForest(view=view, settings=settings, provenance=provenance, oob=oob)
 
 

@@ -15,6 +15,7 @@ from numpy.typing import NDArray
 from .._version import __version__
 from ..analyses.oob import known_out_of_bag
 from ..analyses.results import OutOfBag
+from ..analyses.uncertainty.leaves import rank_dtype, training_leaves
 from ..analyses.view import FittedForest
 from .check import LABEL_KINDS, NODE_DTYPES, TREE_FIELDS
 from .container import FORMAT_NAME, FORMAT_VERSION, write_model
@@ -45,9 +46,21 @@ def write_forest(path: str | PathLike, stored: StoredForest, include_data: bool 
     oob = stored_oob(stored)
     if oob is not None:
         arrays.update(oob_arrays(oob, view.y))
+    leaves = None if include_data else _case_leaves(view)
+    if leaves is not None:
+        arrays["case_leaves"] = leaves
     header = _header(stored, labels, bool(include_data), arrays)
     header["has_oob"] = oob is not None
+    header["case_leaves"] = None if leaves is None else leaves.dtype.str
     write_model(path, header, arrays)
+
+
+def _case_leaves(view: FittedForest) -> NDArray | None:
+    """The leaf rank of every training case in every tree of a regression forest (what its quantile
+    intervals need when the data are not saved), or None when not needed or not known."""
+    if view.task != "regression" or not (view.has_data or view.case_leaves is not None):
+        return None
+    return training_leaves(view).astype(rank_dtype(view.trees))
 
 
 def _tree_arrays(view: FittedForest) -> dict[str, NDArray]:

@@ -11,6 +11,8 @@ function               draws
 `importance`           importance bars with the spread over trees
 `partial_dependence`   partial dependence curve (with ICE curves) or a two-feature surface
 `proximity_map`        the cases on the proximity map, coloured by class, outliers ringed
+`intervals`            prediction intervals along one feature or against the prediction
+`coverage`             observed against nominal coverage of intervals or prediction sets
 =====================  ==============================================================================
 """
 
@@ -26,5 +28,7 @@ from ._analyses import importance as importance
 from ._analyses import margins as margins
 from ._analyses import partial_dependence as partial_dependence
 from ._analyses import proximity_map as proximity_map
+from ._uncertainty import coverage as coverage
+from ._uncertainty import intervals as intervals
 
-__all__ = ["error_curve", "importance", "margins", "partial_dependence", "proximity_map"]
+__all__ = ["coverage", "error_curve", "importance", "intervals", "margins", "partial_dependence", "proximity_map"]

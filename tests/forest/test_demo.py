@@ -61,3 +61,40 @@ class TestBatchInspectionDemo:
         assert margins == sorted(margins)
         found = int(re.search(r"^(\d+) of these 10 were deliberately misgraded", out, re.M).group(1))
         assert found >= 7          # measured 10 of 10
+
+
+@pytest.mark.slow
+class TestHowSureBlock:
+    """The demo's last block: prediction sets for new batches and doubtful grades at a stated FDR."""
+
+    def test_prediction_sets(self, demo_run):
+        out = demo_run.stdout
+        assert "-- how sure: 90% prediction sets (out-of-bag conformal, coverage within each grade) --" in out
+        rows = re.findall(r"^  new batch \d: forest says '(pass|rework)' \((\d+)% of trees say rework\); "
+                          r"plausible grades: \{([a-z, ]*)\}; lab graded '(pass|rework)'$", out, re.M)
+        assert len(rows) == 6
+        for said, share, grades, _ in rows:
+            assert (said == "rework") == (int(share) > 50) or int(share) == 50
+            assert set(filter(None, grades.split(", "))) <= {"pass", "rework"}
+        one, both, none, held = re.search(r"^on the 500 new batches: (\d+) sets name one grade, (\d+) both, (\d+) "
+                                          r"none; they hold the lab's grade for (\d+\.\d)% \(nominal 90%\)$",
+                                          out, re.M).groups()
+        assert int(one) + int(both) + int(none) == 500
+        # Conformal coverage (Vovk, Gammerman & Shafer 2005): a binomial proportion of 500 around 0.9, sd 1.3%
+        assert abs(float(held) - 90) < 4.5
+
+    def test_doubtful_at_a_false_discovery_rate(self, demo_run):
+        out = demo_run.stdout
+        assert "-- doubtful past grades at a false discovery rate of 10% --" in out
+        assert "a second grader confirmed 1000 randomly chosen past grades; the other 500 are tested" in out
+        head = re.search(r"^(\d+) doubtful cases \(Benjamini-Hochberg at false discovery rate 0\.1: 500 cases "
+                         r"tested against 1000 trusted\), most doubtful first$", out, re.M)
+        rows = re.findall(r"^ *\d+  (pass|rework) +(pass|rework) +[-+]\d\.\d{3} +\d+ +(0\.\d{4})$", out, re.M)
+        assert head and len(rows) == int(head.group(1)) > 0
+        p = [float(v) for *_, v in rows]
+        assert p == sorted(p) and max(p) <= 0.1
+        found, listed = map(int, re.search(r"^(\d+) of these (\d+) were deliberately misgraded in the invented "
+                                           r"data \(the expected share", out, re.M).groups())
+        assert listed == len(rows) and found >= 0.8 * listed      # measured 13 of 13
+        assert out.rstrip().endswith("a model does not replace the lab's judgement or the rules that apply where "
+                                     "you work.")

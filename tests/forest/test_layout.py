@@ -21,8 +21,8 @@ import forestlab
 
 PACKAGE = Path(forestlab.__file__).parent
 LEAVES = {"forestlab._warnings", "forestlab._version", "forestlab._paths"}
-FRONT = {"forestlab", "forestlab._forest", "forestlab._members", "forestlab._fitting", "forestlab._load",
-         "forestlab._crossval", "forestlab._summary"}
+FRONT = {"forestlab", "forestlab._forest", "forestlab._handoffs", "forestlab._members", "forestlab._fitting",
+         "forestlab._load", "forestlab._crossval", "forestlab._summary"}
 
 # part -> the parts it may import (its own included)
 ALLOWED = {

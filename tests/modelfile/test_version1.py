@@ -28,21 +28,27 @@ def _problem(n=150, seed=5):
 
 
 def _version1(forest, include_data):
-    """The bytes a version-1 writer gave for ``forest``: its class factors were version 1's class weights
-    (``"balanced"`` when they came from equal priors, else given as they are)."""
+    """The bytes a version-1 writer gave for ``forest`` (see :func:`version1_layout`)."""
     with tempfile.TemporaryDirectory() as folder:
         path = os.path.join(folder, "m.npz")
         forest.save(path, include_data=include_data)
         with open(path, "rb") as fh:
             header, arrays = _members(fh.read())
+    return _pack(*version1_layout(header, arrays))
+
+
+def version1_layout(header, arrays):
+    """A version-2 file's header and members laid out as version 1 had them: the class factors were the class
+    weights (``"balanced"`` when they came from equal priors, else "given"), and there was no case_leaves."""
     assert header["format_version"] == FORMAT_VERSION == 2
     settings = header["settings"]
     priors = settings.pop("class_priors")
     settings["class_weights"] = None if priors is None else ("balanced" if priors == "equal" else "given")
     header["class_weight_values"] = header.pop("class_factors")
-    del header["class_priors"]
+    del header["class_priors"], header["case_leaves"]
+    arrays.pop("case_leaves", None)
     header["format_version"] = 1
-    return _pack(header, arrays)
+    return header, arrays
 
 
 def _fit(priors, X, y, trees=8):
