@@ -11,10 +11,11 @@ from typing import Any
 import numpy as np
 
 from .._paths import output_path
+from ..analyses.uncertainty.conformal import check_level
 from ..modelfile.stored import StoredForest
 from ..modelfile.write import stored_oob
 from .findings import dependence_section, importance_of, importance_section
-from .new_cases import new_cases_section
+from .new_cases import checked_new_cases, new_cases_section
 from .page import Section, page
 from .pictures import check_plotting
 from .summary import doubtful_section, fit_section, oob_section, votes_section
@@ -30,18 +31,19 @@ CAUTION = (
 
 
 def report(stored: StoredForest, path: str | PathLike, X_new: Any = None, *, title: str | None = None,
-           features: int = 3, cases: int = 20, label: Any = None, rng: Any = 0) -> Path:
+           features: int = 3, cases: int = 20, label: Any = None, rng: Any = 0, level: float = 0.9) -> Path:
     """Write one self-contained HTML page about the fitted forest, to open in any browser or print.
 
     Called as ``forest.report(path)``; needs ``pip install 'forestlab[plot]'`` for its pictures. The page
     holds what was fit (data shape, settings as given and as grown, the data fingerprint, forestlab version,
     date), the out-of-bag error with its curve and where it settles (:meth:`OutOfBag.settles_at`), the
     confusion table or the residual summary, the doubtful cases, the permutation importance (table and
-    picture), partial dependence pictures of the leading predictors, predictions for ``X_new`` when given,
-    and a caution about decisions that affect people. Every number is the one the Python objects hold
-    (``forest.oob``, ``forest.importance(rng=rng)``, ...), its full value kept in the page's ``data-value``
-    attributes. No script, font or picture is fetched: the style sheet is inline and the pictures are SVG
-    data.
+    picture), partial dependence pictures of the leading predictors, predictions for ``X_new`` when given
+    (each with its ``level`` jackknife+ interval or conformal prediction set: ``forest.intervals`` and
+    ``forest.prediction_sets(..., rng=0)``), and a caution about decisions that affect people. Every number
+    is the one the Python objects hold (``forest.oob``, ``forest.importance(rng=rng)``, ...), its full value
+    kept in the page's ``data-value`` attributes. No script, font or picture is fetched: the style sheet is
+    inline and the pictures are SVG data.
 
     Parameters
     ----------
@@ -60,6 +62,8 @@ def report(stored: StoredForest, path: str | PathLike, X_new: Any = None, *, tit
         classes, else the most frequent class).
     rng : None, int, SeedSequence or Generator, default 0
         Seeds the shuffles of the permutation importance (``forest.importance(rng=rng)`` gives the same).
+    level : float, default 0.9
+        Coverage of the intervals or prediction sets shown for ``X_new``.
 
     Returns
     -------
@@ -74,8 +78,10 @@ def report(stored: StoredForest, path: str | PathLike, X_new: Any = None, *, tit
     if title is not None and not isinstance(title, str):
         raise TypeError(f"`title` must be a str or None; got {type(title).__name__}")
     plot = check_plotting()
-    new = None if X_new is None else new_cases_section(view, X_new, int(cases))  # checks X_new before the work
+    level = check_level(level)
+    coded = None if X_new is None else checked_new_cases(view, X_new)  # checks X_new before the work
     oob = stored_oob(stored)
+    new = None if coded is None else new_cases_section(view, coded, int(cases), oob, level)
     found = importance_of(view, rng)
     sections = [fit_section(stored), oob_section(stored, oob, plot), votes_section(oob),
                 doubtful_section(oob, int(cases)), importance_section(found, plot),

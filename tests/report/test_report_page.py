@@ -87,6 +87,9 @@ def test_classification_numbers_are_the_objects(classification, tmp_path):
     new = frame.iloc[::7]
     assert page.texts("new-cases-table", 1)[:20] == forest.predict(new)[:20].tolist()
     assert page.values("new-cases-table", 2)[:20] == forest.votes(new)[:20, 0].tolist()
+    sets = forest.prediction_sets(new, 0.9, rng=0)   # the column after the K vote shares
+    shown = [", ".join(str(c) for c in forest.classes[row]) or "(none)" for row in sets.members[:20]]
+    assert page.texts("new-cases-table", 2 + forest.classes.size) == shown
     # what a reader sees: the same numbers to four significant digits
     assert page.texts("importance-table", 2) == [f"{v:.4g}" for v in found.scores[found.ranking]]
     assert page.tables["confusion"][1][1][0] == str(oob.confusion[0, 0])
@@ -107,6 +110,16 @@ def test_regression_numbers_are_the_objects(regression):
     doubtful = oob.doubtful(threshold=2.0)
     assert page.values("doubtful-table", 3) == doubtful.margin[:20].tolist()
     assert "new-cases" not in page.ids
+
+
+def test_regression_intervals_are_the_objects(tmp_path):
+    forest, X = glass_regression_forest()
+    page = Tables(forest.report(tmp_path / "forest.html", X_new=X[:30], level=0.8).read_text(encoding="utf-8"))
+    found = forest.intervals(X[:30], 0.8)
+    assert page.values("new-cases-table", 1) == forest.predict(X[:20]).tolist()
+    assert page.values("new-cases-table", 2) == found.lower[:20].tolist()
+    assert page.values("new-cases-table", 3) == found.upper[:20].tolist()
+    assert "80% interval, lower end" in [cell[0] for cell in page.tables["new-cases-table"][0]]
 
 
 def test_pictures_have_titles_and_axis_labels(classification):
