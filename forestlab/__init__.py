@@ -9,6 +9,9 @@ from ._warnings import IncompleteForestWarning as IncompleteForestWarning
 from ._warnings import NeverOutOfBagWarning as NeverOutOfBagWarning
 from ._warnings import OverlapWarning as OverlapWarning
 from ._warnings import SingleClassWarning as SingleClassWarning
+from .analyses.accounts import CaseAccount as CaseAccount
+from .analyses.accounts import CaseAttributions as CaseAttributions
+from .analyses.accounts import OverallWeight as OverallWeight
 from .analyses.dependence import Dependence as Dependence
 from .analyses.importance import Importance as Importance
 from .analyses.proximity import ProximityMap as ProximityMap
@@ -33,6 +36,8 @@ __all__ = [
     "AllFeatures",
     "CandidateSampler",
     "CartSplitter",
+    "CaseAccount",
+    "CaseAttributions",
     "CrossValidatedError",
     "Dependence",
     "DoubtfulCases",
@@ -45,6 +50,7 @@ __all__ = [
     "ModelFileError",
     "NeverOutOfBagWarning",
     "OutOfBag",
+    "OverallWeight",
     "OverlapWarning",
     "ProximityMap",
     "RandomSubset",

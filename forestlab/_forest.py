@@ -14,6 +14,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from ._fitting import grow, more_of_the_same, prepare, regrow
 from ._members import fitted_attribute, hand_off, setting, settings_repr, vote_shares
+from .analyses import attributions as _attributions
 from .analyses import dependence as _dependence
 from .analyses import importance as _importance
 from .analyses import proximity as _proximity
@@ -293,6 +294,7 @@ class Forest:
     proximity = hand_off(_proximity.proximity)
     outlyingness = hand_off(_proximity.outlyingness)
     proximity_map = hand_off(_proximity.proximity_map)
+    attributions = hand_off(_attributions.attributions)
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
