@@ -14,6 +14,7 @@ from .analyses.accounts import CaseAttributions as CaseAttributions
 from .analyses.accounts import OverallWeight as OverallWeight
 from .analyses.dependence import Dependence as Dependence
 from .analyses.importance import Importance as Importance
+from .analyses.interaction import InteractionStrength as InteractionStrength
 from .analyses.proximity import ProximityMap as ProximityMap
 from .analyses.proximity import classical_scaling as classical_scaling
 from .analyses.results import CrossValidatedError as CrossValidatedError
@@ -47,6 +48,7 @@ __all__ = [
     "GiniSplitter",
     "Importance",
     "IncompleteForestWarning",
+    "InteractionStrength",
     "ModelFileError",
     "NeverOutOfBagWarning",
     "OutOfBag",

@@ -17,6 +17,7 @@ from ._members import fitted_attribute, hand_off, setting, settings_repr, vote_s
 from .analyses import attributions as _attributions
 from .analyses import dependence as _dependence
 from .analyses import importance as _importance
+from .analyses import interaction as _interaction
 from .analyses import proximity as _proximity
 from .analyses.oob import out_of_bag
 from .analyses.results import OutOfBag
@@ -295,6 +296,7 @@ class Forest:
     outlyingness = hand_off(_proximity.outlyingness)
     proximity_map = hand_off(_proximity.proximity_map)
     attributions = hand_off(_attributions.attributions)
+    interaction = hand_off(_interaction.interaction)
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
