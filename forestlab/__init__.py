@@ -13,6 +13,7 @@ from .analyses.accounts import CaseAccount as CaseAccount
 from .analyses.accounts import CaseAttributions as CaseAttributions
 from .analyses.accounts import OverallWeight as OverallWeight
 from .analyses.dependence import Dependence as Dependence
+from .analyses.doubt import DoubtReasons as DoubtReasons
 from .analyses.importance import Importance as Importance
 from .analyses.interaction import InteractionStrength as InteractionStrength
 from .analyses.proximity import ProximityMap as ProximityMap
@@ -41,6 +42,7 @@ __all__ = [
     "CaseAttributions",
     "CrossValidatedError",
     "Dependence",
+    "DoubtReasons",
     "DoubtfulCases",
     "EntropySplitter",
     "Forest",

@@ -16,6 +16,7 @@ from ._fitting import grow, more_of_the_same, prepare, regrow
 from ._members import fitted_attribute, hand_off, setting, settings_repr, vote_shares
 from .analyses import attributions as _attributions
 from .analyses import dependence as _dependence
+from .analyses import doubt as _doubt
 from .analyses import importance as _importance
 from .analyses import interaction as _interaction
 from .analyses import proximity as _proximity
@@ -297,6 +298,7 @@ class Forest:
     proximity_map = hand_off(_proximity.proximity_map)
     attributions = hand_off(_attributions.attributions)
     interaction = hand_off(_interaction.interaction)
+    doubt_reasons = hand_off(_doubt.doubt_reasons)
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
