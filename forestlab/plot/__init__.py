@@ -11,6 +11,9 @@ function               draws
 `importance`           importance bars with the spread over trees
 `partial_dependence`   partial dependence curve (with ICE curves) or a two-feature surface
 `proximity_map`        the cases on the proximity map, coloured by class, outliers ringed
+`case_ledger`          one case's attributions as bars from zero, from the baseline to its answer
+`attribution_cloud`    every case's attribution of one feature against its value, coloured by another
+`interaction_grid`     pairwise H-statistics as a numbered lower-triangle grid
 =====================  ==============================================================================
 """
 
@@ -26,5 +29,9 @@ from ._analyses import importance as importance
 from ._analyses import margins as margins
 from ._analyses import partial_dependence as partial_dependence
 from ._analyses import proximity_map as proximity_map
+from ._reasons import attribution_cloud as attribution_cloud
+from ._reasons import case_ledger as case_ledger
+from ._reasons import interaction_grid as interaction_grid
 
-__all__ = ["error_curve", "importance", "margins", "partial_dependence", "proximity_map"]
+__all__ = ["attribution_cloud", "case_ledger", "error_curve", "importance", "interaction_grid", "margins",
+           "partial_dependence", "proximity_map"]
