@@ -10,7 +10,8 @@ Friedman & Popescu (2008), "Predictive learning via rule ensembles", Annals of A
   / sum_i F(x_i)^2``.
 
 Every partial dependence is evaluated at the sample's own values, averaging the forest's output over the
-same sample (Friedman 2001, "Greedy function approximation", section 8.2).
+same sample (Friedman 2001, "Greedy function approximation", section 8.2); they are read off the leaves'
+boxes (:mod:`~forestlab.analyses.leafboxes`), not predicted for ``N^2`` made-up rows.
 """
 
 from __future__ import annotations
@@ -25,8 +26,9 @@ from numpy.typing import NDArray
 
 from ..engine.seeding import root_seed
 from .accounts import plain
-from .cases import ROW_BUDGET, analysis_X, mean_prediction
+from .cases import analysis_X
 from .dependence import _check_label
+from .leafboxes import tree_dependences
 from .view import FittedForest
 
 __all__ = ["InteractionStrength", "interaction"]
@@ -113,8 +115,10 @@ def interaction(forest: FittedForest, features: Any = None, *, X: Any = None, ca
 
     Notes
     -----
-    Cost: the forest predicts ``(2 q + q (q - 1) / 2) N^2`` made-up rows, ``q`` the number of features
-    examined: for 10 features and 200 cases 2.6 million rows through every tree. Memory: blocks of about 32 MB.
+    Cost: per tree, one pass of the ``N`` sample cases down the tree and about ``(2 q + q (q - 1) / 2)``
+    passes over a (leaves, N) table, ``q`` the number of features examined: the same as predicting
+    ``(2 q + q (q - 1) / 2) N^2`` made-up rows, without making them. Memory: a (leaves, N, p) table of
+    booleans per tree.
 
     Examples
     --------
@@ -137,16 +141,12 @@ def interaction(forest: FittedForest, features: Any = None, *, X: Any = None, ca
     generator = np.random.default_rng(root_seed(rng))
     n = data.shape[0]
     sample = data[np.sort(generator.choice(n, size=min(int(cases), n), replace=False))]
-    whole = _centred(mean_prediction(forest, sample, code))
-    single = {j: _centred(_dependence(forest, sample, [j], code)) for j in chosen}
+    whole, single, pairs, rest = _forest_dependences(forest, sample, chosen, code)
     pairwise = np.full((len(chosen), len(chosen)), np.nan)
     for a, b in itertools.combinations(range(len(chosen)), 2):
-        joint = _centred(_dependence(forest, sample, [chosen[a], chosen[b]], code))
+        joint = pairs[(chosen[a], chosen[b])]
         pairwise[a, b] = pairwise[b, a] = _ratio(joint - single[chosen[a]] - single[chosen[b]], joint)
-    total = np.empty(len(chosen))
-    for a, j in enumerate(chosen):
-        rest = [c for c in range(data.shape[1]) if c != j]
-        total[a] = _ratio(whole - single[j] - _centred(_dependence(forest, sample, rest, code)), whole)
+    total = np.array([_ratio(whole - single[j] - rest[j], whole) for j in chosen])
     return InteractionStrength(features=tuple(chosen), names=tuple(forest.feature_names[j] for j in chosen),
                                pairwise=pairwise, total=total, cases=int(sample.shape[0]),
                                label=None if code is None else plain(forest.classes[code]))
@@ -171,19 +171,20 @@ def _check_features(features: Any, names: tuple[str, ...]) -> list[int]:
     return out
 
 
-def _dependence(forest: FittedForest, sample: NDArray[np.float64], columns: list[int],
-                code: int | None) -> NDArray[np.float64]:
-    """Partial dependence on ``columns`` at every sample row: the mean over the sample of the output with
-    those columns set to the row's values (N^2 made-up rows, a block of sample rows at a time)."""
-    N = sample.shape[0]
-    out = np.empty(N)
-    step = max(1, ROW_BUDGET // (N * sample.shape[1]))
-    for start in range(0, N, step):
-        rows = np.arange(start, min(N, start + step))
-        made = np.tile(sample, (rows.size, 1))
-        made[:, columns] = np.repeat(sample[np.ix_(rows, columns)], N, axis=0)
-        out[rows] = mean_prediction(forest, made, code).reshape(rows.size, N).mean(axis=1)
-    return out
+def _forest_dependences(forest: FittedForest, sample: NDArray[np.float64], chosen: list[int], code: int | None):
+    """The forest's output at the sample and its partial dependences (:mod:`~forestlab.analyses.leafboxes`),
+    averaged over trees and sample, each centred to mean 0."""
+    missing = bool(np.isnan(sample).any())
+    total = None
+    for tree in forest.trees:
+        parts = tree_dependences(tree, sample, chosen, code, missing)
+        total = parts if total is None else (total[0] + parts[0], *({key: old[key] + new[key] for key in old}
+                                                                    for old, new in zip(total[1:], parts[1:])))
+    scale = 1.0 / len(forest.trees)
+    whole = _centred(total[0] * scale)
+    scale /= sample.shape[0]
+    single, pairs, rest = ({key: _centred(value * scale) for key, value in part.items()} for part in total[1:])
+    return whole, single, pairs, rest
 
 
 def _centred(values: NDArray[np.float64]) -> NDArray[np.float64]:
