@@ -53,7 +53,7 @@ def attributions(forest: FittedForest, X: Any = None, *, oob: bool = False) -> C
     -----
     Cost: one pass down and one up every tree for all rows of a block together, about ``nodes * m`` values
     per row and tree with ``m = ceil(d / 2)`` quadrature points, ``d`` the most distinct features on a path
-    (at most ``min(depth, p)``); classification multiplies the upward pass by the number of classes.
+    (at most ``min(depth, p)``); classification multiplies the upward pass by the number of classes less one.
     Memory: blocks of rows of about 32 MB of working arrays per tree, plus the result.
 
     Examples
@@ -96,6 +96,7 @@ def forest_shares(forest: FittedForest, X: NDArray[np.float64], oob_cases: NDArr
     coverage = np.zeros(rows, dtype=np.int64)
     missing = bool(np.isnan(X).any())
     everyone = np.arange(rows)
+    scratch = np.empty(budget + 4 * max(tree.nodes for tree in forest.trees))   # one buffer for every block
     for b, tree in enumerate(forest.trees):
         game = tree_game(tree, p, classes)
         mine = everyone if oob_cases is None else np.flatnonzero(forest.inbag[b, oob_cases] == 0)
@@ -105,9 +106,11 @@ def forest_shares(forest: FittedForest, X: NDArray[np.float64], oob_cases: NDArr
                 block = slice(start, min(start + step, rows))
             else:
                 block = mine[start:start + step]
-            values[block] += tree_shares(game, X[block], missing)
+            values[block, :, k - game.outputs.shape[1]:] += tree_shares(game, X[block], missing, scratch)
         baseline[mine] += game.baseline
         coverage[mine] += 1
+    if classes is not None:
+        values[:, :, 0] = -values[:, :, 1:].sum(axis=2)     # vote shares sum to 1, so their shares sum to 0
     seen = coverage > 0
     values[seen] /= coverage[seen, None, None]
     baseline[seen] /= coverage[seen, None]

@@ -69,9 +69,12 @@ class TreeGame:
     weights : ndarray of float64, shape (m,)
         Gauss-Legendre weights on [0, 1].
     outputs : ndarray of float64, shape (nodes, k)
-        The output of every leaf (0 at inner nodes): its value, or one-hot columns of classes.
-    baseline : ndarray of float64, shape (k,)
-        The tree's expected output over its training cases: sum of leaf outputs times cover shares.
+        The output of every leaf (0 at inner nodes): its value, or one-hot columns of the classes after the
+        first (``k = K - 1``: the first class's shares are minus the sum of the others', since the vote
+        shares always sum to 1).
+    baseline : ndarray of float64, shape (1,) or (K,)
+        The tree's expected output over its training cases (every class's, for classification): sum of leaf
+        outputs times cover shares.
     """
 
     tree: Tree
@@ -123,9 +126,10 @@ def tree_game(tree: Tree, features: int, classes: int | None) -> TreeGame:
     if classes is None:
         outputs = np.where(leaf, tree.value, 0.0)[:, None]
     else:
-        outputs = np.zeros((nodes, classes))
-        outputs[np.flatnonzero(leaf), tree.value[leaf].astype(np.intp)] = 1.0
-    baseline = cover @ outputs
+        every = np.zeros((nodes, classes))
+        every[np.flatnonzero(leaf), tree.value[leaf].astype(np.intp)] = 1.0
+        outputs = every[:, 1:]
+    baseline = cover @ (outputs if classes is None else every)
     return TreeGame(tree=tree, levels=levels, edge_feature=edge_feature, earlier=earlier, step=step,
                     change=change, weights=weights, outputs=outputs, baseline=baseline)
 
@@ -167,17 +171,28 @@ def _tables(q: NDArray[np.float64], q_before: NDArray[np.float64], t: NDArray[np
     return np.ascontiguousarray(step.reshape(nodes * 3, m).T), change[:, None, 1:].copy()
 
 
-def tree_shares(game: TreeGame, X: NDArray[np.float64], missing: bool = True) -> NDArray[np.float64]:
-    """Shapley values of every feature for every row of ``X`` (a block): shape (rows, p, k).
+def tree_shares(game: TreeGame, X: NDArray[np.float64], missing: bool = True,
+                scratch: NDArray[np.float64] | None = None) -> NDArray[np.float64]:
+    """Shapley values of every feature for every row of ``X`` (a block): shape (rows, p, k), for the columns
+    of ``game.outputs`` (see :class:`TreeGame` for the first class of a classification).
 
-    ``X`` is coded like the training predictors. Rows plus ``game.baseline`` add up to the tree's output.
+    ``X`` is coded like the training predictors.
+    ``scratch``, a float64 buffer of at least ``nodes * rows * (k * m + k + 2)`` values, holds the passes'
+    arrays (reusing one buffer for every block saves the fresh memory pages).
     """
     rows, p = X.shape
-    k = game.outputs.shape[1]
-    if game.tree.nodes == 1:
+    nodes, k = game.tree.nodes, game.outputs.shape[1]
+    if nodes == 1 or k == 0:
         return np.zeros((rows, p, k))
-    S, before, now = _down(game, X, missing)
-    contribution = _up(game, S, before, now)
+    sizes = [nodes * k * game.points * rows, (nodes - 1) * k * rows, (nodes - 1) * rows, (nodes - 1) * rows]
+    if scratch is None or scratch.size < sum(sizes):
+        scratch = np.empty(sum(sizes))
+    ends = np.cumsum(sizes)
+    parts = [scratch[e - size:e] for e, size in zip(ends, sizes)]
+    S = parts[0].reshape(nodes, k, game.points, rows)
+    before, now = parts[2].reshape(nodes - 1, rows), parts[3].reshape(nodes - 1, rows)
+    _down(game, X, missing, S, before, now)
+    contribution = _up(game, S, before, now, parts[1].reshape(nodes - 1, k, rows))
     index = (game.edge_feature[1:, None, None] * k + np.arange(k)[:, None]) * rows + np.arange(rows)
     summed = np.bincount(index.ravel(), weights=contribution.ravel(), minlength=p * k * rows)
     return summed.reshape(p, k, rows).transpose(2, 0, 1)
@@ -186,7 +201,7 @@ def tree_shares(game: TreeGame, X: NDArray[np.float64], missing: bool = True) ->
 def block_rows(game: TreeGame, budget: int) -> int:
     """Rows per block so that the passes' arrays of one block hold about ``budget`` float64 values."""
     k = game.outputs.shape[1]
-    per_row = game.tree.nodes * (k * game.points + 2 * k + 3)
+    per_row = game.tree.nodes * (k * game.points + k + 3)
     return max(1, budget // per_row)
 
 
@@ -201,18 +216,20 @@ def _routes(game: TreeGame, X: NDArray[np.float64], columns: NDArray[np.float64]
     return columns[tree.feature[node]] > tree.threshold[node][:, None]
 
 
-def _down(game: TreeGame, X: NDArray[np.float64], missing: bool):
-    """The pass down: ``G`` level by level; returns ``v_l G_l`` at every node (0 at inner nodes), shape
-    (nodes, k, m, rows), and ``o`` before and after every edge, (nodes, rows) as 0.0 / 1.0."""
+def _down(game: TreeGame, X: NDArray[np.float64], missing: bool, S: NDArray[np.float64],
+          before_out: NDArray[np.float64], now_out: NDArray[np.float64]) -> None:
+    """The pass down: ``G`` level by level; writes ``v_l G_l`` at every node (0 at inner nodes) into ``S``
+    (nodes, k, m, rows), and ``o`` before and after every edge into ``before_out`` and ``now_out``
+    (nodes - 1, rows) as 0.0 / 1.0."""
     tree, m, rows = game.tree, game.points, X.shape[0]
-    nodes, k = tree.nodes, game.outputs.shape[1]
+    nodes = tree.nodes
     took = np.ones((nodes + 1, rows), dtype=bool)    # o: the row took every edge on the feature so far
-    S = np.empty((nodes, k, m, rows))
-    G = np.broadcast_to(game.weights[None, :, None], (1, m, rows))   # (level nodes, m, rows)
+    G = np.broadcast_to(game.weights[:, None, None], (m, 1, rows))   # planes: (m, level nodes, rows)
     feature, left = tree.feature, tree.left
     columns = np.ascontiguousarray(X.T)
     for d, (start, stop) in enumerate(game.levels):
-        np.multiply(G[:, None], game.outputs[start:stop, :, None, None], out=S[start:stop])
+        leaf = np.flatnonzero(feature[start:stop] < 0)
+        S[start + leaf] = G[:, leaf].transpose(1, 0, 2)[:, None] * game.outputs[start + leaf][:, :, None, None]
         if d + 1 == len(game.levels):
             break
         inner = np.flatnonzero(feature[start:stop] >= 0)
@@ -225,22 +242,19 @@ def _down(game: TreeGame, X: NDArray[np.float64], missing: bool):
         np.logical_and(before[:, 1], right, out=now[:, 1])
         flat = before.reshape(hi - lo, rows).view(np.uint8) + now.reshape(hi - lo, rows).view(np.uint8)
         flat = flat + (np.arange(lo, hi) * 3)[:, None]
-        parents = G[inner]
-        G = np.empty((hi - lo, m, rows))
-        for t in range(m):
-            np.multiply(np.take(game.step[t], flat).reshape(node.size, 2, rows), parents[:, None, t],
-                        out=G[:, t].reshape(node.size, 2, rows))
-    before = took[game.earlier[1:]].astype(np.float64)
-    return S, before, took[1:nodes].astype(np.float64)
+        parents = G[:, inner]
+        G = np.take(game.step, flat, axis=1)
+        G.reshape(m, node.size, 2, rows)[...] *= parents[:, :, None, :]
+    np.copyto(before_out, took[game.earlier[1:]])
+    np.copyto(now_out, took[1:nodes])
 
 
-def _up(game: TreeGame, S: NDArray[np.float64], before: NDArray[np.float64],
-        now: NDArray[np.float64]) -> NDArray[np.float64]:
+def _up(game: TreeGame, S: NDArray[np.float64], before: NDArray[np.float64], now: NDArray[np.float64],
+        contribution: NDArray[np.float64]) -> NDArray[np.float64]:
     """The pass up: ``S`` summed into every inner node, level by level, and every edge's share
     ``o_before (c_1 . S) + o_now ((c_2 - c_1) . S)``: shape (nodes - 1, k, rows)."""
     nodes, k, _, rows = S.shape
     feature = game.tree.feature
-    contribution = np.empty((nodes - 1, k, rows))
     for d in range(len(game.levels) - 1, 0, -1):
         start, stop = game.levels[d]
         if d + 1 < len(game.levels):
