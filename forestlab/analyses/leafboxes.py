@@ -63,18 +63,24 @@ def tree_dependences(tree: Tree, sample: NDArray[np.float64], chosen: list[int],
     v = value if code is None else (value == code).astype(np.float64)
     keep = v != 0                                   # leaves of output 0 add nothing
     A, v = A[keep], v[keep]
-    fails = A.shape[2] - A.sum(axis=2, dtype=np.int64)          # (leaves, N)
+    fails = (A.shape[2] - np.count_nonzero(A, axis=2)).astype(np.int16 if A.shape[2] < 2**15 else np.int32)
     clear = fails == 0
-    whole = v @ clear
+    whole = _weighted_rows(v, clear)
     cols = {j: np.ascontiguousarray(A[:, :, j]) for j in chosen}
     single, rest = {}, {}
     for j, Aj in cols.items():
         but_j = clear | ((fails == 1) & ~Aj)        # fails nothing but (maybe) j
-        single[j] = (v * but_j.sum(axis=1)) @ Aj
-        rest[j] = (v * Aj.sum(axis=1)) @ but_j
+        single[j] = _weighted_rows(v * np.count_nonzero(but_j, axis=1), Aj)
+        rest[j] = _weighted_rows(v * np.count_nonzero(Aj, axis=1), but_j)
     pairs = {}
     for j, k in itertools.combinations(chosen, 2):
         Aj, Ak = cols[j], cols[k]
         within = fails == (~Aj).view(np.uint8) + (~Ak).view(np.uint8)
-        pairs[(j, k)] = (v * within.sum(axis=1)) @ (Aj & Ak)
+        pairs[(j, k)] = _weighted_rows(v * np.count_nonzero(within, axis=1), Aj & Ak)
     return whole, single, pairs, rest
+
+
+def _weighted_rows(weight: NDArray[np.float64], passes: NDArray[np.bool_]) -> NDArray[np.float64]:
+    """``weight @ passes`` over the leaves of non-zero weight only (deep leaves often count no case)."""
+    used = np.flatnonzero(weight)
+    return weight[used] @ passes[used]
