@@ -5,18 +5,16 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-matplotlib = pytest.importorskip("matplotlib")
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
-
+pytest.importorskip("matplotlib").use("Agg")
 import forestlab as fl  # noqa: E402
 import forestlab.plot as flp  # noqa: E402
+from matplotlib import pyplot  # noqa: E402
 
 
 @pytest.fixture(autouse=True)
 def _close_figures():
     yield
-    plt.close("all")
+    pyplot.close("all")
 
 
 @pytest.fixture(scope="module")
