@@ -30,8 +30,7 @@ def case_ledger(account: CaseAccount, *, ax: Any = None) -> Any:
     -------
     matplotlib.axes.Axes
     """
-    if not isinstance(account, CaseAccount):
-        raise TypeError(f"`account` must be a CaseAccount from CaseAttributions.case; got {type(account).__name__}")
+    _expect(account, CaseAccount, "account", "CaseAttributions.case")
     order = account.order[:account.top]
     rest = np.setdiff1d(np.arange(account.shares.size), order)
     names = [f"{account.names[j]} = {account.shown[j]}" for j in order]
@@ -75,8 +74,7 @@ def attribution_cloud(result: CaseAttributions, feature: int | str, colour_by: i
     -------
     matplotlib.axes.Axes
     """
-    if not isinstance(result, CaseAttributions):
-        raise TypeError(f"`result` must be CaseAttributions from Forest.attributions; got {type(result).__name__}")
+    _expect(result, CaseAttributions, "result", "Forest.attributions")
     j = _column(feature, result.feature_names, "feature")
     shares = result.of(label)[:, j]
     x = result.X[:, j]
@@ -118,9 +116,7 @@ def interaction_grid(strength: InteractionStrength, *, ax: Any = None) -> Any:
     -------
     matplotlib.axes.Axes
     """
-    if not isinstance(strength, InteractionStrength):
-        raise TypeError(f"`strength` must be an InteractionStrength from Forest.interaction; got "
-                        f"{type(strength).__name__}")
+    _expect(strength, InteractionStrength, "strength", "Forest.interaction")
     q = len(strength.features)
     shown = np.where(np.tril(np.ones((q, q), dtype=bool), k=-1), strength.pairwise, np.nan)
     ax = axes(ax, (1.0 + 0.6 * q, 0.8 + 0.55 * q))
@@ -139,6 +135,11 @@ def interaction_grid(strength: InteractionStrength, *, ax: Any = None) -> Any:
     style(ax, "Interaction strength H", "", "", grid_axis=None)
     ax.set_xlabel("diagonal: with all others", color=MUTED, fontsize=8)
     return ax
+
+
+def _expect(value: Any, kind: type, name: str, source: str) -> None:
+    if not isinstance(value, kind):
+        raise TypeError(f"`{name}` must be the {kind.__name__} of {source}; got {type(value).__name__}")
 
 
 def _column(feature: Any, names: tuple[str, ...], name: str) -> int:

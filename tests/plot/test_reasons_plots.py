@@ -38,7 +38,7 @@ def test_case_ledger_bars(explained):
     labels = [t.get_text() for t in ax.get_yticklabels()]
     assert labels[-2:] == ["2 other features", "all shares together"]
     assert ax.get_title(loc="left") == f"Case 3: from {account.baseline:.3g} to {account.answer:.3g}"
-    with pytest.raises(TypeError, match="`account` must be a CaseAccount"):
+    with pytest.raises(TypeError, match="`account` must be the CaseAccount of CaseAttributions.case"):
         flp.case_ledger(result)
 
 
@@ -62,5 +62,5 @@ def test_interaction_grid_cells(explained):
     assert shown[0, 1] is np.ma.masked and shown[1, 0] == pytest.approx(strength.pairwise[1, 0])
     texts = [t.get_text() for t in ax.texts]
     assert len(texts) == 4 + 6 and f"{strength.total[0]:.2f}" in texts
-    with pytest.raises(TypeError, match="`strength` must be an InteractionStrength"):
+    with pytest.raises(TypeError, match="`strength` must be the InteractionStrength of Forest.interaction"):
         flp.interaction_grid(None)
