@@ -83,6 +83,27 @@ def test_h_equals_its_definition_and_vanishes_for_additive_trees():
     assert strength.pairwise[0, 2] == pytest.approx(0.0, abs=1e-12)
 
 
+def test_h_of_a_fitted_forest_with_categories_and_gaps_equals_its_definition():
+    """The same check on a fitted two-class forest with a categorical column and missing values: the leaves'
+    boxes route cases as prediction does (Friedman & Popescu 2008, equations 44 and 46)."""
+    rng = np.random.default_rng(3)
+    X = rng.normal(size=(120, 4))
+    X[:, 3] = rng.integers(0, 4, 120)
+    y = np.where((X[:, 0] > 0) ^ (X[:, 3] == 2), "a", "b")
+    X[rng.random(X.shape) < 0.1] = np.nan
+    forest = fl.Forest(trees=4, rng=1, categorical=[3]).fit(X, y)
+    strength = forest.interaction([0, 3, 1], cases=30, rng=4, label="b")
+    view = forest._view
+    Z = view.X[np.sort(np.random.default_rng(fl.engine.seeding.root_seed(4)).choice(120, 30, replace=False))]
+
+    def predict(rows):
+        return np.mean([tree.value[fl.engine.tree.leaf_index(tree, rows)] == 1 for tree in view.trees], axis=0)
+
+    pair, total = h_by_definition(predict, Z, 0, 3)
+    assert strength.pairwise[0, 1] == pytest.approx(pair, rel=1e-10)
+    assert strength.total[0] == pytest.approx(total, rel=1e-10)
+
+
 def test_interaction_messages_and_print():
     rng = np.random.default_rng(1)
     X = rng.normal(size=(80, 3))
