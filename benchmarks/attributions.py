@@ -8,9 +8,11 @@ What is measured (issue 20), every run in a fresh process of its own, the worklo
 
 * ``attributions``: n = 10 000 training cases, p = 10, 100 fully grown trees (default settings: regression
   Friedman #1 with min_leaf 5; two-class twonorm with min_leaf 1, pure leaves): the wall time of
-  ``forest.attributions(X[:1000])`` as a multiple of the wall time of ``fit`` in the same process (the pair
-  shares the process's speed), and the peak resident memory the call adds (``VmHWM`` reset just before it,
-  less the resident set before it), beside the bytes of the result.
+  ``forest.attributions(X[:1000])`` as a multiple of the wall time of the ``fit`` just before it in the same
+  process (``--pairs`` fit / attributions pairs a process, each fit with a seed of its own; the ratio of
+  every pair is kept, so a burst of load on the shared machine spoils one pair, not the table), and the
+  peak resident memory the call adds (``VmHWM`` reset just before it, less the resident set before it),
+  beside the bytes of the result.
 * ``interaction``: ``forest.interaction(cases=500)`` (all 45 pairs of the 10 features and every feature
   against the rest) on the Friedman #1 forest: the wall time, and as a multiple of the fit time.
 
@@ -48,8 +50,9 @@ def _reset_peak() -> None:
         refs.write("5")
 
 
-def one_run(workload: str, n: int, rows: int, cases: int) -> dict:
-    """Fit, then explain ``rows`` rows (and the interaction on ``cases`` cases for Friedman #1), timed."""
+def one_run(workload: str, n: int, rows: int, cases: int, pairs: int) -> dict:
+    """``pairs`` times: fit, then explain ``rows`` rows, timed; then the interaction on ``cases`` cases
+    (Friedman #1 only) after the last fit."""
     sys.path.insert(0, str(REPO))
     import numpy as np
 
@@ -58,18 +61,22 @@ def one_run(workload: str, n: int, rows: int, cases: int) -> dict:
 
     X, y = friedman1(n, rng=0) if workload == "friedman1" else twonorm(n, dims=10, rng=0)
     fl.Forest(trees=1, rng=0).fit(X[:500], y[:500]).attributions(X[:10])      # load the code paths
-    start = time.perf_counter()
-    forest = fl.Forest(trees=100, rng=1).fit(X, y)
-    fit = time.perf_counter() - start
-    before = _memory("VmRSS")
-    _reset_peak()
-    start = time.perf_counter()
-    result = forest.attributions(X[:rows])
-    explain = time.perf_counter() - start
-    peak = _memory("VmHWM") - before
+    fits, explains, peaks = [], [], []
+    for pair in range(pairs):
+        result = None                               # the previous pair's result is freed before the next
+        start = time.perf_counter()
+        forest = fl.Forest(trees=100, rng=1 + pair).fit(X, y)
+        fits.append(time.perf_counter() - start)
+        before = _memory("VmRSS")
+        _reset_peak()
+        start = time.perf_counter()
+        result = forest.attributions(X[:rows])
+        explains.append(time.perf_counter() - start)
+        peaks.append(_memory("VmHWM") - before)
     trees = forest._view.trees
-    record = {"workload": workload, "fit_s": fit, "attributions_s": explain, "ratio": explain / fit,
-              "peak_added_bytes": peak, "result_bytes": int(result.values.nbytes + result.baseline.nbytes),
+    record = {"workload": workload, "fit_s": fits, "attributions_s": explains,
+              "ratio": [e / f for e, f in zip(explains, fits)], "peak_added_bytes": peaks,
+              "result_bytes": int(result.values.nbytes + result.baseline.nbytes),
               "nodes_mean": float(np.mean([t.nodes for t in trees])),
               "depth_mean": float(np.mean([int(t.depth.max()) for t in trees])),
               "max_error_additivity": float(np.max(np.abs(result.predictions - (
@@ -77,40 +84,44 @@ def one_run(workload: str, n: int, rows: int, cases: int) -> dict:
     if workload == "friedman1" and cases:
         start = time.perf_counter()
         forest.interaction(cases=cases, rng=2)
-        record["interaction_s"] = time.perf_counter() - start
-        record["interaction_ratio"] = record["interaction_s"] / fit
+        record["interaction_s"] = [time.perf_counter() - start]
+        record["interaction_ratio"] = [record["interaction_s"][0] / fits[-1]]
     return record
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
-    parser.add_argument("--repeats", type=int, default=5)
+    parser.add_argument("--repeats", type=int, default=3, help="fresh processes per workload")
+    parser.add_argument("--pairs", type=int, default=3, help="fit / attributions pairs per process")
     parser.add_argument("--quick", action="store_true", help="n = 2 000, 200 rows, 100 cases")
-    parser.add_argument("--one", nargs=4, metavar=("WORKLOAD", "N", "ROWS", "CASES"), help=argparse.SUPPRESS)
+    parser.add_argument("--one", nargs=5, metavar=("WORKLOAD", "N", "ROWS", "CASES", "PAIRS"),
+                        help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.one:
-        print(json.dumps(one_run(args.one[0], int(args.one[1]), int(args.one[2]), int(args.one[3]))))
+        print(json.dumps(one_run(args.one[0], *(int(a) for a in args.one[1:]))))
         return
     n, rows, cases = (2_000, 200, 100) if args.quick else (10_000, 1_000, 500)
     runs = []
     for repeat in range(args.repeats):
         for workload in WORKLOADS:
-            done = subprocess.run([sys.executable, __file__, "--one", workload, str(n), str(rows), str(cases)],
-                                  capture_output=True, text=True, check=True, cwd=REPO)
+            command = [sys.executable, __file__, "--one", workload, str(n), str(rows), str(cases), str(args.pairs)]
+            done = subprocess.run(command, capture_output=True, text=True, check=True, cwd=REPO)
             runs.append(json.loads(done.stdout))
-            print(f"  run {repeat + 1} {workload}: ratio {runs[-1]['ratio']:.2f}", file=sys.stderr)
+            print(f"  run {repeat + 1} {workload}: ratios {[round(r, 2) for r in runs[-1]['ratio']]}",
+                  file=sys.stderr)
     table = []
     for workload in WORKLOADS:
         mine = [r for r in runs if r["workload"] == workload]
         row = {"workload": workload}
         for key in ("fit_s", "attributions_s", "ratio", "peak_added_bytes", "interaction_s", "interaction_ratio"):
-            values = [r[key] for r in mine if key in r]
+            values = [v for r in mine if key in r for v in r[key]]
             if values:
                 row[key] = (statistics.median(values), min(values), max(values))
         row["nodes_mean"], row["depth_mean"] = mine[0]["nodes_mean"], mine[0]["depth_mean"]
         row["result_bytes"] = mine[0]["result_bytes"]
         table.append(row)
-    print(f"\nattributions of {rows} rows, 100 trees, n = {n}, p = 10; medians of {args.repeats} runs (range)")
+    print(f"\nattributions of {rows} rows, 100 trees, n = {n}, p = 10; medians of {args.repeats} processes x "
+          f"{args.pairs} pairs (range)")
     print(f"{'forest':<34} {'fit s':>7} {'attr s':>8} {'x fit':>16} {'peak added MB':>14}")
     for row in table:
         name = f"{row['workload']} ({row['nodes_mean']:.0f} nodes, depth {row['depth_mean']:.0f})"
