@@ -38,7 +38,7 @@ are prediction's own (:func:`~forestlab.engine.tree.goes_right`).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import NDArray
@@ -57,12 +57,15 @@ class TreeGame:
     tree : Tree
     levels : list of (int, int)
         Node range ``start:stop`` of every depth (nodes are stored breadth-first).
+    leaf_at, inner_at : list of ndarray of intp
+        Positions of the leaves and of the inner nodes within every level's range.
     edge_feature : ndarray of intp, shape (nodes,)
         Feature of the split above every node (-1 at the root).
     earlier : ndarray of intp, shape (nodes,)
         The node below the nearest earlier edge on the same feature, or ``nodes`` when there is none.
     step : ndarray of float64, shape (m, nodes * 3)
-        ``g^(s) / g^(s-1)`` at every quadrature point, column ``3 * node + code``.
+        ``g^(s) / g^(s-1)`` at every quadrature point, column ``3 * node + code``; at a leaf of a game of one
+        output column also times the leaf's output, so the pass down lands on ``v_l G_l`` there.
     change : ndarray of float64, shape (nodes, 1, 2, m)
         At every quadrature point: ``c_s`` of code 1, and that of code 2 less that of code 1 (``c_s`` is 0 for
         code 0), so an edge's share is ``o_before (change[0] . S) + o_now (change[1] . S)``.
@@ -79,6 +82,8 @@ class TreeGame:
 
     tree: Tree
     levels: list[tuple[int, int]]
+    leaf_at: list[NDArray[np.intp]]
+    inner_at: list[NDArray[np.intp]]
     edge_feature: NDArray[np.intp]
     earlier: NDArray[np.intp]
     step: NDArray[np.float64]
@@ -86,6 +91,7 @@ class TreeGame:
     weights: NDArray[np.float64]
     outputs: NDArray[np.float64]
     baseline: NDArray[np.float64]
+    index_for: list = field(default_factory=lambda: [0, None])
 
     @property
     def points(self) -> int:
@@ -94,7 +100,11 @@ class TreeGame:
 
 
 def tree_game(tree: Tree, features: int, classes: int | None) -> TreeGame:
-    """The row-free tables of ``tree`` (``classes`` None for regression, else the number of classes)."""
+    """The row-free tables of ``tree`` (``classes`` None for regression, else the number of classes).
+
+    A child's cover share is its ``cases`` over the sum of its and its sibling's, so the shares of two children
+    add up to 1 even where the single-precision counts of weighted cases do not add up exactly.
+    """
     nodes = tree.nodes
     depth = tree.depth
     bounds = np.flatnonzero(np.diff(depth)) + 1
@@ -130,8 +140,12 @@ def tree_game(tree: Tree, features: int, classes: int | None) -> TreeGame:
         every[np.flatnonzero(leaf), tree.value[leaf].astype(np.intp)] = 1.0
         outputs = every[:, 1:]
     baseline = cover @ (outputs if classes is None else every)
-    return TreeGame(tree=tree, levels=levels, edge_feature=edge_feature, earlier=earlier, step=step,
-                    change=change, weights=weights, outputs=outputs, baseline=baseline)
+    if outputs.shape[1] == 1:
+        step.reshape(m, nodes, 3)[:, leaf] *= outputs[leaf, 0][None, :, None]
+    leaf_at = [np.flatnonzero(feature[a:b] < 0) for a, b in levels]
+    inner_at = [np.flatnonzero(feature[a:b] >= 0) for a, b in levels]
+    return TreeGame(tree=tree, levels=levels, leaf_at=leaf_at, inner_at=inner_at, edge_feature=edge_feature,
+                    earlier=earlier, step=step, change=change, weights=weights, outputs=outputs, baseline=baseline)
 
 
 def _earlier_edges(levels, parent, edge_feature, inner, features: int) -> tuple[NDArray[np.intp], int]:
@@ -155,7 +169,8 @@ def _earlier_edges(levels, parent, edge_feature, inner, features: int) -> tuple[
 
 
 def _tables(q: NDArray[np.float64], q_before: NDArray[np.float64], t: NDArray[np.float64]):
-    """``g^(s) / g^(s-1)`` and ``c_s`` for the three codes (0: left earlier; 1: leaves here; 2: stays)."""
+    """``g^(s) / g^(s-1)`` for the three codes (0: left the feature's interval earlier; 1: leaves it here;
+    2: stays in it), and ``c_s`` of code 1 with that of code 2 less that of code 1 (code 0's is 0)."""
     q, q_before = q[:, None], q_before[:, None]
     stay, stay_before = q + t * (1.0 - q), q_before + t * (1.0 - q_before)   # g when o = 1
     gone = q * (1.0 - t)                                                       # g when o = 0
@@ -193,9 +208,18 @@ def tree_shares(game: TreeGame, X: NDArray[np.float64], missing: bool = True,
     before, now = parts[2].reshape(nodes - 1, rows), parts[3].reshape(nodes - 1, rows)
     _down(game, X, missing, S, before, now)
     contribution = _up(game, S, before, now, parts[1].reshape(nodes - 1, k, rows))
-    index = (game.edge_feature[1:, None, None] * k + np.arange(k)[:, None]) * rows + np.arange(rows)
-    summed = np.bincount(index.ravel(), weights=contribution.ravel(), minlength=p * k * rows)
+    summed = np.bincount(_feature_index(game, rows), weights=contribution.ravel(), minlength=p * k * rows)
     return summed.reshape(p, k, rows).transpose(2, 0, 1)
+
+
+def _feature_index(game: TreeGame, rows: int) -> NDArray[np.intp]:
+    """Where every (edge, class, row) share goes in the (p, k, rows) sums; kept for the block size in use."""
+    cached = game.index_for
+    if cached[0] != rows:
+        k = game.outputs.shape[1]
+        index = (game.edge_feature[1:, None, None] * k + np.arange(k)[:, None]) * rows + np.arange(rows)
+        cached[:] = [rows, index.ravel()]
+    return cached[1]
 
 
 def block_rows(game: TreeGame, budget: int) -> int:
@@ -218,21 +242,20 @@ def _routes(game: TreeGame, X: NDArray[np.float64], columns: NDArray[np.float64]
 
 def _down(game: TreeGame, X: NDArray[np.float64], missing: bool, S: NDArray[np.float64],
           before_out: NDArray[np.float64], now_out: NDArray[np.float64]) -> None:
-    """The pass down: ``G`` level by level; writes ``v_l G_l`` at every node (0 at inner nodes) into ``S``
-    (nodes, k, m, rows), and ``o`` before and after every edge into ``before_out`` and ``now_out``
-    (nodes - 1, rows) as 0.0 / 1.0."""
+    """The pass down: ``G`` level by level; writes ``v_l G_l`` of every leaf into ``S`` (nodes, k, m, rows;
+    the pass up fills the inner nodes), and ``o`` before and after every edge into ``before_out`` and
+    ``now_out`` (nodes - 1, rows) as 0.0 / 1.0."""
     tree, m, rows = game.tree, game.points, X.shape[0]
     nodes = tree.nodes
     took = np.ones((nodes + 1, rows), dtype=bool)    # o: the row took every edge on the feature so far
     G = np.broadcast_to(game.weights[:, None, None], (m, 1, rows))   # planes: (m, level nodes, rows)
-    feature, left = tree.feature, tree.left
+    left = tree.left
     columns = np.ascontiguousarray(X.T)
-    for d, (start, stop) in enumerate(game.levels):
-        leaf = np.flatnonzero(feature[start:stop] < 0)
-        S[start + leaf] = G[:, leaf].transpose(1, 0, 2)[:, None] * game.outputs[start + leaf][:, :, None, None]
+    for d, (start, _) in enumerate(game.levels):
+        leaf, inner = game.leaf_at[d], game.inner_at[d]
+        _leaf_shares(S, G, start + leaf, leaf, game.outputs, d == 0)
         if d + 1 == len(game.levels):
             break
-        inner = np.flatnonzero(feature[start:stop] >= 0)
         node = start + inner
         right = _routes(game, X, columns, node, missing)
         lo, hi = left[node[0]], left[node[-1]] + 2
@@ -240,27 +263,40 @@ def _down(game: TreeGame, X: NDArray[np.float64], missing: bool, S: NDArray[np.f
         now = took[lo:hi].reshape(node.size, 2, rows)
         np.logical_and(before[:, 0], ~right, out=now[:, 0])
         np.logical_and(before[:, 1], right, out=now[:, 1])
-        flat = before.reshape(hi - lo, rows).view(np.uint8) + now.reshape(hi - lo, rows).view(np.uint8)
+        before, now = before.reshape(hi - lo, rows), now.reshape(hi - lo, rows)
+        np.copyto(before_out[lo - 1:hi - 1], before)
+        np.copyto(now_out[lo - 1:hi - 1], now)
+        flat = before.view(np.uint8) + now.view(np.uint8)
         flat = flat + (np.arange(lo, hi) * 3)[:, None]
         parents = G[:, inner]
         G = np.take(game.step, flat, axis=1)
         G.reshape(m, node.size, 2, rows)[...] *= parents[:, :, None, :]
-    np.copyto(before_out, took[game.earlier[1:]])
-    np.copyto(now_out, took[1:nodes])
+
+
+def _leaf_shares(S: NDArray[np.float64], G: NDArray[np.float64], nodes: NDArray[np.intp], at: NDArray[np.intp],
+                 outputs: NDArray[np.float64], root: bool) -> None:
+    """``S[nodes] = v G`` for the leaves at positions ``at`` of the level's planes ``G`` (m, level, rows); with
+    one output column ``v`` is in ``G`` already (see :attr:`TreeGame.step`), except at the root."""
+    if not at.size:
+        return
+    leaf_G = np.take(G, at, axis=1)                       # contiguous planes, then one transposing copy
+    if outputs.shape[1] == 1:
+        if root:
+            leaf_G *= outputs[nodes, 0][None, :, None]
+        S[nodes, 0] = leaf_G.transpose(1, 0, 2)
+    else:
+        S[nodes] = leaf_G.transpose(1, 0, 2)[:, None] * outputs[nodes][:, :, None, None]
 
 
 def _up(game: TreeGame, S: NDArray[np.float64], before: NDArray[np.float64], now: NDArray[np.float64],
         contribution: NDArray[np.float64]) -> NDArray[np.float64]:
     """The pass up: ``S`` summed into every inner node, level by level, and every edge's share
     ``o_before (c_1 . S) + o_now ((c_2 - c_1) . S)``: shape (nodes - 1, k, rows)."""
-    nodes, k, _, rows = S.shape
-    feature = game.tree.feature
     for d in range(len(game.levels) - 1, 0, -1):
         start, stop = game.levels[d]
         if d + 1 < len(game.levels):
-            inner = start + np.flatnonzero(feature[start:stop] >= 0)
             below = S[game.levels[d + 1][0]:game.levels[d + 1][1]]
-            S[inner] = below[0::2] + below[1::2]
+            S[start + game.inner_at[d]] = below[0::2] + below[1::2]
         both = game.change[start:stop] @ S[start:stop]        # (nodes, k, 2, rows)
         here = contribution[start - 1:stop - 1]
         np.multiply(both[:, :, 0], before[start - 1:stop - 1, None], out=here)
