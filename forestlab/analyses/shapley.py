@@ -39,6 +39,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 from numpy.typing import NDArray
@@ -57,8 +58,8 @@ class TreeGame:
     tree : Tree
     levels : list of (int, int)
         Node range ``start:stop`` of every depth (nodes are stored breadth-first).
-    leaf_at, inner_at : list of ndarray of intp
-        Positions of the leaves and of the inner nodes within every level's range.
+    at : list of Level
+        What the passes read at every depth (positions of leaves and inner nodes, the children's range, ...).
     edge_feature : ndarray of intp, shape (nodes,)
         Feature of the split above every node (-1 at the root).
     earlier : ndarray of intp, shape (nodes,)
@@ -82,8 +83,7 @@ class TreeGame:
 
     tree: Tree
     levels: list[tuple[int, int]]
-    leaf_at: list[NDArray[np.intp]]
-    inner_at: list[NDArray[np.intp]]
+    at: list[Level]
     edge_feature: NDArray[np.intp]
     earlier: NDArray[np.intp]
     step: NDArray[np.float64]
@@ -142,10 +142,33 @@ def tree_game(tree: Tree, features: int, classes: int | None) -> TreeGame:
     baseline = cover @ (outputs if classes is None else every)
     if outputs.shape[1] == 1:
         step.reshape(m, nodes, 3)[:, leaf] *= outputs[leaf, 0][None, :, None]
-    leaf_at = [np.flatnonzero(feature[a:b] < 0) for a, b in levels]
-    inner_at = [np.flatnonzero(feature[a:b] >= 0) for a, b in levels]
-    return TreeGame(tree=tree, levels=levels, leaf_at=leaf_at, inner_at=inner_at, edge_feature=edge_feature,
-                    earlier=earlier, step=step, change=change, weights=weights, outputs=outputs, baseline=baseline)
+    at = [_level(tree, start, stop, earlier) for start, stop in levels]
+    return TreeGame(tree=tree, levels=levels, at=at, edge_feature=edge_feature, earlier=earlier, step=step,
+                    change=change, weights=weights, outputs=outputs, baseline=baseline)
+
+
+class Level(NamedTuple):
+    """One depth of a tree as the passes read it."""
+
+    leaf: NDArray[np.intp]          # positions of the leaves in the level's range
+    inner: NDArray[np.intp]         # positions of the inner nodes
+    node: NDArray[np.intp]          # the inner nodes
+    lo: int                         # their children are nodes lo:hi
+    hi: int
+    earlier: NDArray[np.intp]       # earlier[lo:hi]
+    offset: NDArray[np.intp]        # 3 * (lo:hi), shape (hi - lo, 1)
+    split: NDArray[np.intp]         # the inner nodes' features
+    threshold: NDArray[np.float64]  # and thresholds, shape (inner, 1)
+
+
+def _level(tree: Tree, start: int, stop: int, earlier: NDArray[np.intp]) -> Level:
+    feature = tree.feature[start:stop]
+    inner = np.flatnonzero(feature >= 0)
+    node = start + inner
+    lo, hi = (int(tree.left[node[0]]), int(tree.left[node[-1]]) + 2) if node.size else (stop, stop)
+    return Level(leaf=np.flatnonzero(feature < 0), inner=inner, node=node, lo=lo, hi=hi, earlier=earlier[lo:hi],
+                 offset=(np.arange(lo, hi) * 3)[:, None], split=tree.feature[node].astype(np.intp),
+                 threshold=tree.threshold[node][:, None])
 
 
 def _earlier_edges(levels, parent, edge_feature, inner, features: int) -> tuple[NDArray[np.intp], int]:
@@ -229,15 +252,15 @@ def block_rows(game: TreeGame, budget: int) -> int:
     return max(1, budget // per_row)
 
 
-def _routes(game: TreeGame, X: NDArray[np.float64], columns: NDArray[np.float64], node: NDArray[np.intp],
+def _routes(game: TreeGame, X: NDArray[np.float64], columns: NDArray[np.float64], at: Level,
             missing: bool) -> NDArray[np.bool_]:
-    """Whether every row goes right at every node of ``node``: shape (nodes, rows)."""
-    tree = game.tree
+    """Whether every row goes right at every inner node of the level: shape (inner nodes, rows)."""
+    tree, node = game.tree, at.node
     if missing or tree.category_left.shape[1]:
         rows = X.shape[0]
         return goes_right(X, np.tile(np.arange(rows), node.size), np.repeat(node, rows), tree.feature,
                           tree.threshold, tree.missing_left, tree.category_left, missing).reshape(node.size, rows)
-    return columns[tree.feature[node]] > tree.threshold[node][:, None]
+    return columns[at.split] > at.threshold
 
 
 def _down(game: TreeGame, X: NDArray[np.float64], missing: bool, S: NDArray[np.float64],
@@ -249,17 +272,15 @@ def _down(game: TreeGame, X: NDArray[np.float64], missing: bool, S: NDArray[np.f
     nodes = tree.nodes
     took = np.ones((nodes + 1, rows), dtype=bool)    # o: the row took every edge on the feature so far
     G = np.broadcast_to(game.weights[:, None, None], (m, 1, rows))   # planes: (m, level nodes, rows)
-    left = tree.left
     columns = np.ascontiguousarray(X.T)
     for d, (start, _) in enumerate(game.levels):
-        leaf, inner = game.leaf_at[d], game.inner_at[d]
-        _leaf_shares(S, G, start + leaf, leaf, game.outputs, d == 0)
+        at = game.at[d]
+        _leaf_shares(S, G, start + at.leaf, at.leaf, game.outputs, d == 0)
         if d + 1 == len(game.levels):
             break
-        node = start + inner
-        right = _routes(game, X, columns, node, missing)
-        lo, hi = left[node[0]], left[node[-1]] + 2
-        before = took[game.earlier[lo:hi]].reshape(node.size, 2, rows)
+        node, lo, hi = at.node, at.lo, at.hi
+        right = _routes(game, X, columns, at, missing)
+        before = took[at.earlier].reshape(node.size, 2, rows)
         now = took[lo:hi].reshape(node.size, 2, rows)
         np.logical_and(before[:, 0], ~right, out=now[:, 0])
         np.logical_and(before[:, 1], right, out=now[:, 1])
@@ -267,8 +288,8 @@ def _down(game: TreeGame, X: NDArray[np.float64], missing: bool, S: NDArray[np.f
         np.copyto(before_out[lo - 1:hi - 1], before)
         np.copyto(now_out[lo - 1:hi - 1], now)
         flat = before.view(np.uint8) + now.view(np.uint8)
-        flat = flat + (np.arange(lo, hi) * 3)[:, None]
-        parents = G[:, inner]
+        flat = flat + at.offset
+        parents = G[:, at.inner]
         G = np.take(game.step, flat, axis=1)
         G.reshape(m, node.size, 2, rows)[...] *= parents[:, :, None, :]
 
@@ -294,9 +315,10 @@ def _up(game: TreeGame, S: NDArray[np.float64], before: NDArray[np.float64], now
     ``o_before (c_1 . S) + o_now ((c_2 - c_1) . S)``: shape (nodes - 1, k, rows)."""
     for d in range(len(game.levels) - 1, 0, -1):
         start, stop = game.levels[d]
+        at = game.at[d]
         if d + 1 < len(game.levels):
             below = S[game.levels[d + 1][0]:game.levels[d + 1][1]]
-            S[start + game.inner_at[d]] = below[0::2] + below[1::2]
+            S[at.node] = below[0::2] + below[1::2]
         both = game.change[start:stop] @ S[start:stop]        # (nodes, k, 2, rows)
         here = contribution[start - 1:stop - 1]
         np.multiply(both[:, :, 0], before[start - 1:stop - 1, None], out=here)
