@@ -26,7 +26,7 @@ What is measured
 * ``growth``: fit time at the larger n over fit time at the smaller n (p = 10), fits in fresh processes as
   above, the two sizes alternating; n log n would be 12.5x for 10 000 -> 100 000.
 * ``workers``: fit time with ``workers=1`` over ``workers=2`` (speed-up), runs alternating, after one
-  untimed ``workers=2`` fit that starts the fork server (a once-per-process cost, recorded in the JSON).
+  untimed ``workers=2`` fit that starts the worker processes (a once-per-process cost, recorded in the JSON).
 
 The data are generated with NumPy exactly as the yardstick's ``drive.py`` does (twonorm: ``a = 2/sqrt(p)``;
 Friedman #1 on U[0,1]^p), seed 0, and written as raw float64 for the C program. The yardstick is found
@@ -350,9 +350,9 @@ def bench_growth(spec, repeats, log):
 
 def bench_workers(spec, repeats, log):
     data = make_data("twonorm", spec["n"], spec["p"])
-    # The first parallel fit of a process also starts the fork server (once per process): timed apart.
+    # The first parallel fit of a process also starts the worker processes (once per process): timed apart.
     first = fit_forestlab(data, 3, spec["trees"], 1, workers=2)[0]
-    log(f"  workers: first fit with workers=2 (starts the fork server) {first:.2f} s")
+    log(f"  workers: first fit with workers=2 (starts the workers) {first:.2f} s")
     one, two = [], []
     for _ in range(repeats):
         one.append(fit_forestlab(data, 3, spec["trees"], 1, workers=1)[0])

@@ -4,6 +4,7 @@ from ._crossval import cross_validated_error as cross_validated_error
 from ._forest import Forest as Forest
 from ._load import load as load
 from ._version import __version__ as __version__
+from ._warnings import CandidatesCappedWarning as CandidatesCappedWarning
 from ._warnings import ForestlabWarning as ForestlabWarning
 from ._warnings import IncompleteForestWarning as IncompleteForestWarning
 from ._warnings import NeverOutOfBagWarning as NeverOutOfBagWarning
@@ -36,6 +37,7 @@ from .modelfile.stored import StoredComponent as StoredComponent
 
 __all__ = [
     "AllFeatures",
+    "CandidatesCappedWarning",
     "CandidateSampler",
     "CartSplitter",
     "CaseAccount",

@@ -23,7 +23,8 @@ from .engine.tree import Tree
 from .execution.parallel import grow_trees
 from .intake.categories import encode_columns
 from .intake.fingerprint import check_same_data, data_fingerprint
-from .intake.settings import Provenance, Settings, check_class_options, class_vector, resolve_rules, task_for
+from .intake.memory import check_memory
+from .intake.settings import Provenance, Settings, check_class_options, priors_and_factors, resolve_rules, task_for
 from .intake.tables import default_names, read_table
 from .intake.validation import check_splitter_output, check_X, check_y, resolve_categorical
 from .intake.weights import check_weights, growth_weights
@@ -50,14 +51,13 @@ def prepare(settings: Settings, rng: Any, X: Any, y: Any,
     columns = resolve_categorical(settings.categorical, X.shape[1], None if names is None else list(names),
                                   frame=labels)
     X, levels = encode_columns(X, columns)
-    vector = class_vector(settings, target)
+    priors, factors = priors_and_factors(settings, target, case_weights)
     view = FittedForest(task=target.task, trees=(), inbag=np.zeros((0, X.shape[0]), dtype=np.uint8),
                         classes=target.classes, feature_names=names if names is not None else default_names(X.shape[1]),
                         levels=levels, frame_labels=labels, case_weights=case_weights, X=X, y=target.values)
     provenance = Provenance(rules=rules, seed=root_seed(rng),
-                            fingerprint=data_fingerprint(X, target.values, case_weights),
-                            class_weights=None if vector is None else dict(zip(target.classes.tolist(),
-                                                                               vector.tolist())))
+                            fingerprint=data_fingerprint(X, target.values, case_weights), class_priors=priors,
+                            class_factors=factors)
     return view, provenance, training_data(view, provenance, settings.balance)
 
 
@@ -70,12 +70,12 @@ def training_data(view: FittedForest, provenance: Provenance, balance: str | Non
     target = view.target
     stats = check_splitter_output(splitter, target)
     K = 0 if view.classes is None else view.classes.size
-    weights = None if provenance.class_weights is None else np.array(list(provenance.class_weights.values()))
+    factors = None if provenance.class_factors is None else np.array(list(provenance.class_factors.values()))
     categories = np.zeros(view.features, dtype=np.int64)
     for j, values in view.levels.items():
         categories[j] = values.size
     return presort(np.ascontiguousarray(view.X), view.y, stats, K, categories,
-                   growth_weights(view.case_weights, weights, view.y if K else np.zeros(0, np.int64)),
+                   growth_weights(view.case_weights, factors, view.y if K else np.zeros(0, np.int64)),
                    view.y if balance else None)
 
 
@@ -83,6 +83,7 @@ def grow(data: TrainingData | None, provenance: Provenance, settings: Settings,
          tree_ids: range) -> tuple[list[Tree], NDArray[np.uint8]]:
     """Grow the trees with the given spawn indices, in batches sized by the number of cases."""
     _check_can_grow(data, provenance)
+    check_memory(len(tree_ids), data.rows)
     batch = max(1, min(MAX_BATCH, BATCH_ITEMS // data.rows))
     return grow_trees(data, provenance.rules, provenance.seed, tree_ids, batch, workers=settings.workers,
                       executor=settings.executor, progress=settings.progress)

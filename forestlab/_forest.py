@@ -14,13 +14,14 @@ from numpy.typing import ArrayLike, NDArray
 
 from ._fitting import grow, more_of_the_same, prepare, regrow
 from ._members import fitted_attribute, hand_off, setting, settings_repr, vote_shares
+from ._summary import fitted_summary
 from .analyses import attributions as _attributions
 from .analyses import dependence as _dependence
 from .analyses import doubt as _doubt
 from .analyses import importance as _importance
 from .analyses import interaction as _interaction
 from .analyses import proximity as _proximity
-from .analyses.oob import out_of_bag
+from .analyses.oob import known_out_of_bag, out_of_bag
 from .analyses.results import OutOfBag
 from .analyses.view import FittedForest
 from .engine.presort import TrainingData
@@ -28,10 +29,12 @@ from .engine.sampler import CandidateSampler
 from .engine.seeding import check_rng
 from .engine.splitter import CartSplitter
 from .engine.tree import Tree, tree_values
+from .export import onnx_model as _onnx
 from .intake.settings import Provenance, Settings, check_settings
 from .intake.validation import int_at_least
 from .modelfile.stored import StoredForest
 from .modelfile.write import write_forest
+from .report import write as _report
 
 __all__ = ["Forest"]
 
@@ -60,7 +63,8 @@ class Forest:
     Parameters
     ----------
     trees : int, default 500
-        Number of bootstrap samples, hence trees.
+        Number of bootstrap samples, hence trees. A fit refuses (MemoryError) when ``trees * (n + 1000)``
+        bytes, the in-bag counts and a floor for the trees, exceed the memory available.
     sampler : CandidateSampler, int, float, {"sqrt", "log2"} or None
         Candidate features per split. None is :class:`RandomSubset` with the common-practice ``m``:
         ``floor(sqrt(p))`` for classification, ``max(1, floor(p/3))`` for regression. :class:`AllFeatures`
@@ -68,7 +72,7 @@ class Forest:
     splitter : CartSplitter, {"gini", "entropy", "squared_error"} or None
         Split criterion. None is Gini for classification and squared error for regression.
     min_leaf : float or None
-        Smallest leaf, in weighted cases (bootstrap count times case weight times class weight); each child
+        Smallest leaf, in weighted cases (bootstrap count times case weight times class factor); each child
         of a split must weigh at least this. None is 1 for classification and 5 for regression (common
         practice).
     depth_limit : int or None
@@ -86,9 +90,10 @@ class Forest:
         classification; a splitter's own task takes precedence over the inference.
     workers : int, default 1
         Local processes to grow trees in. With more than one, the training data are put once in shared memory
-        and read by every worker (nothing big is copied or pickled per tree); the processes are started with
-        the ``forkserver`` method (``spawn`` where there is none), so a script that fits with
-        ``workers > 1`` needs the usual ``if __name__ == "__main__":`` guard.
+        and read by every worker (nothing big is copied or pickled per tree). The workers are fresh processes
+        started from forestlab's own code, which never run the user's script, notebook or session, so no
+        ``if __name__ == "__main__":`` guard is needed; a custom sampler or splitter must come from an
+        importable module. They wait, idle, for the session's next fit.
     categorical : sequence of int or str, optional
         Features (positions, or column names) whose values are category labels rather than quantities.
         A split on one sends a subset of its categories left, found exactly for two classes and for
@@ -100,10 +105,13 @@ class Forest:
     balance : {"classes"} or None
         ``"classes"`` draws each tree's sample stratified, the same number of cases from every class (the
         balanced random forest of Chen, Liaw & Breiman 2004, "Using random forest to learn imbalanced data").
-    class_weights : dict, "balanced" or None
-        Weight of each class in every sum of the splitter (split scores, ``min_leaf``, leaf values),
-        multiplied into the case weights: a dict label -> positive weight (unlisted classes weigh 1), or
-        ``"balanced"`` for ``n / (K * n_k)`` with ``n_k`` the cases of class ``k``.
+    class_priors : dict, "equal" or None
+        Prior probability of each class (Breiman et al. 1984, chapter 4): every root holds the classes in
+        these shares, each case of class ``k`` weighing ``pi_k * W / W_k`` times its case weight (``W_k`` the
+        total case weight of the class, ``W`` of all) in split scores, ``min_leaf`` and leaf values. A dict
+        gives every class a positive prior (normalised to sum to 1), ``"equal"`` gives each ``1 / K``; None
+        keeps the shares of the data. For costs of misclassifying each class, give priors in proportion to
+        ``cost_k * W_k``.
     executor : concurrent.futures.Executor or None
         Grow the trees on this executor instead: a ``ProcessPoolExecutor`` or ``ThreadPoolExecutor`` of your
         own, or a dask distributed client's ``client.get_executor()`` to fit on a cluster (the data then
@@ -164,10 +172,10 @@ class Forest:
                  depth_limit: int | None = None, sample_size: int | float | None = None, replace: bool = True,
                  rng: Any = None, task: str | None = None, workers: int = 1,
                  categorical: Sequence[int | str] | None = None, balance: str | None = None,
-                 class_weights: dict | str | None = None, executor: Executor | None = None,
+                 class_priors: dict | str | None = None, executor: Executor | None = None,
                  progress: bool | Callable[[int, int], object] | None = None) -> None:
         self._settings: Settings = check_settings(trees, sampler, splitter, min_leaf, depth_limit, sample_size,
-                                                  replace, task, workers, categorical, balance, class_weights,
+                                                  replace, task, workers, categorical, balance, class_priors,
                                                   executor, progress)
         check_rng(rng)
         self._rng = rng
@@ -190,8 +198,8 @@ class Forest:
                            lambda f: f._grown.rules.sample_size)
     replace = setting("replace", "Whether bootstrap draws are with replacement.")
     balance = setting("balance", 'How each tree\'s sample is drawn: None (plain bootstrap) or ``"classes"``.')
-    class_weights = setting("class_weights", "The class weights setting; after fit, a dict label -> weight of "
-                             "every class (None if not set).", lambda f: f._grown.class_weights)
+    class_priors = setting("class_priors", "The class priors setting; after fit, a dict label -> prior of every "
+                            "class (None if not set).", lambda f: f._grown.class_priors)
 
     @property
     def fitted(self) -> bool:
@@ -199,7 +207,12 @@ class Forest:
         return self._view is not None
 
     def __repr__(self) -> str:
-        return settings_repr(self._settings, self._rng)
+        """Unfitted: ``Forest(...)`` with the settings that differ from the defaults. Fitted: task, data, trees,
+        candidates per split and the out-of-bag error (computed once, when the training data are there)."""
+        if self._view is None:
+            return settings_repr(self._settings, self._rng)
+        self._oob = known_out_of_bag(self._view, self._oob)
+        return fitted_summary(self._view, self._grown.rules, self._oob)
 
     # ----------------------------------------------------------------------------------------- fitting
     def fit(self, X: ArrayLike, y: ArrayLike, weights: ArrayLike | None = None) -> Forest:
@@ -301,6 +314,9 @@ class Forest:
     doubt_reasons = hand_off(_doubt.doubt_reasons)
 
     # ----------------------------------------------------------------------------------------- files
+    to_onnx = hand_off(_onnx.to_onnx, of="_stored")
+    report = hand_off(_report.report, of="_stored")
+
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:
         """Write the fitted forest to ``path`` (one ``.npz`` file; see docs/file-format.md).
 
@@ -309,14 +325,17 @@ class Forest:
         grow more trees or compute out-of-bag results; without them it still predicts. Read it back with
         :func:`forestlab.load`.
         """
-        stored = StoredForest(self._fitted_view(), self._settings, self._grown, self._oob)
-        write_forest(path, stored, include_data=include_data)
+        write_forest(path, self._stored(), include_data=include_data)
 
     # ----------------------------------------------------------------------------------------- internals
     def _fitted_view(self) -> FittedForest:
         if self._view is None:
             raise RuntimeError("this Forest is not fitted yet; call `fit(X, y)` first")
         return self._view
+
+    def _stored(self) -> StoredForest:
+        """The fitted forest as the model file and the exports read it."""
+        return StoredForest(self._fitted_view(), self._settings, self._grown, self._oob)
 
     def _clone_settings(self, rng: Any = None) -> Forest:
         """A new, unfitted Forest with this forest's settings and the given ``rng``."""

@@ -7,9 +7,7 @@ import functools
 from collections.abc import Callable
 from typing import Any, Concatenate, ParamSpec, TypeVar
 
-import numpy as np
-from numpy.typing import NDArray
-
+from .analyses.cases import vote_shares
 from .analyses.view import FittedForest
 from .intake.settings import Settings
 
@@ -21,14 +19,16 @@ R = TypeVar("R")
 # the constructor's defaults, in its order (``settings_repr`` shows what differs)
 DEFAULTS = {"trees": 500, "sampler": None, "splitter": None, "min_leaf": None, "depth_limit": None,
             "sample_size": None, "replace": True, "rng": None, "task": None, "workers": 1, "categorical": None,
-            "balance": None, "class_weights": None, "executor": None, "progress": None}
+            "balance": None, "class_priors": None, "executor": None, "progress": None}
 
 
-def hand_off(analysis: Callable[Concatenate[FittedForest, P], R]) -> Callable[Concatenate[Any, P], R]:
-    """A Forest method that gives ``analysis`` the fitted forest's view; the analysis's docstring is its own."""
+def hand_off(analysis: Callable[Concatenate[FittedForest, P], R],
+             of: str = "_fitted_view") -> Callable[Concatenate[Any, P], R]:
+    """A Forest method that gives ``analysis`` the fitted forest's view (or what the Forest method ``of``
+    returns, e.g. ``"_stored"``: view, settings, provenance and OOB results); the docstring is the analysis's."""
     @functools.wraps(analysis)
     def method(self: Any, *args: P.args, **kwargs: P.kwargs) -> R:
-        return analysis(self._fitted_view(), *args, **kwargs)
+        return analysis(getattr(self, of)(), *args, **kwargs)
     return method
 
 
@@ -56,11 +56,3 @@ def settings_repr(settings: Settings, rng: Any) -> str:
         given["sampler"] = None
     shown = [f"{k}={v!r}" for k, v in given.items() if v is not DEFAULTS[k] and v != DEFAULTS[k]]
     return f"Forest({', '.join(shown)})"
-
-
-def vote_shares(per_tree: NDArray[np.int64], classes: int) -> NDArray[np.float64]:
-    """Share of rows of ``per_tree`` (trees, n) equal to each class: shape (n, classes)."""
-    trees, n = per_tree.shape
-    flat = (np.arange(n) * classes)[None, :] + per_tree
-    counts = np.bincount(flat.ravel(), minlength=n * classes).reshape(n, classes)
-    return counts / trees

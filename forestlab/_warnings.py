@@ -6,8 +6,8 @@ All of them derive from :class:`ForestlabWarning`, so a user can silence or esca
 
 from __future__ import annotations
 
-__all__ = ["ForestlabWarning", "IncompleteForestWarning", "NeverOutOfBagWarning", "OverlapWarning",
-           "SingleClassWarning"]
+__all__ = ["CandidatesCappedWarning", "ForestlabWarning", "IncompleteForestWarning", "NeverOutOfBagWarning",
+           "OverlapWarning", "SingleClassWarning"]
 
 
 class ForestlabWarning(UserWarning):
@@ -27,5 +27,11 @@ class NeverOutOfBagWarning(ForestlabWarning):
 
     The case gets NaN (or no label) and is left out of the out-of-bag error; more trees usually cover it.
     """
+
+
 class IncompleteForestWarning(ForestlabWarning):
     """A loaded forest names a custom sampler or splitter that was not supplied: it predicts but cannot grow."""
+
+
+class CandidatesCappedWarning(ForestlabWarning):
+    """A sampler was asked for more candidate features than the data have: every feature is a candidate."""

@@ -12,7 +12,7 @@ from ..engine.tree import leaf_index
 from ..intake.validation import check_y
 from .view import FittedForest
 
-__all__ = ["ROW_BUDGET", "analysis_X", "analysis_y", "leaves", "mean_prediction", "row_blocks"]
+__all__ = ["ROW_BUDGET", "analysis_X", "analysis_y", "leaves", "mean_prediction", "row_blocks", "vote_shares"]
 
 # Largest number of float64 elements a stacked block of predictor copies may hold (about 32 MB).
 ROW_BUDGET = 4_000_000
@@ -64,3 +64,11 @@ def mean_prediction(forest: FittedForest, X: NDArray[np.float64], label: int | N
             value = tree.value[leaf_index(tree, block)]
             out[rows] += value if label is None else (value == label)
     return out / len(forest.trees)
+
+
+def vote_shares(per_tree: NDArray[np.int64], classes: int) -> NDArray[np.float64]:
+    """Share of rows of ``per_tree`` (trees, n) equal to each class: shape (n, classes)."""
+    trees, n = per_tree.shape
+    flat = (np.arange(n) * classes)[None, :] + per_tree
+    counts = np.bincount(flat.ravel(), minlength=n * classes).reshape(n, classes)
+    return counts / trees

@@ -29,7 +29,7 @@ from ..intake.validation import Target
 from .results import OutOfBag
 from .view import FittedForest
 
-__all__ = ["out_of_bag"]
+__all__ = ["known_out_of_bag", "out_of_bag"]
 
 
 @dataclass(frozen=True)
@@ -99,6 +99,19 @@ def out_of_bag(forest: FittedForest, stacklevel: int = 1) -> OutOfBag:
             f"label and are left out of the OOB error. Grow more trees with `add_trees` to cover them.",
             NeverOutOfBagWarning, stacklevel=stacklevel + 1)
     return result
+
+
+def known_out_of_bag(forest: FittedForest, cached: OutOfBag | None) -> OutOfBag | None:
+    """``cached`` when given, else the OOB results computed now if the training data are there, else None.
+
+    For callers that report the cases never out-of-bag themselves (``print(forest)``, the model file): no
+    :class:`NeverOutOfBagWarning`.
+    """
+    if cached is not None or not forest.has_data:
+        return cached
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", NeverOutOfBagWarning)
+        return out_of_bag(forest)
 
 
 # ------------------------------------------------------------------------------------- classification

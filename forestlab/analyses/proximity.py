@@ -13,17 +13,20 @@ import numbers
 import warnings
 from collections.abc import Iterator
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import scipy.linalg
-import scipy.sparse
-import scipy.sparse.linalg
 from numpy.typing import NDArray
 
 from .._warnings import OverlapWarning
 from .cases import ROW_BUDGET, analysis_X, analysis_y, leaves, row_blocks
 from .view import FittedForest
+
+if TYPE_CHECKING:
+    import scipy.sparse
+
+# scipy is imported where it is used: it is most of the time ``import forestlab`` takes, which every worker
+# process of ``workers=k`` pays at start.
 
 __all__ = ["ProximityMap", "classical_scaling", "outlyingness", "proximity", "proximity_blocks",
            "proximity_map"]
@@ -79,6 +82,8 @@ def _leaf_indicator(forest: FittedForest, X: NDArray, weights: NDArray | None) -
     n, trees = X.shape[0], len(forest.trees)
     indptr = np.arange(0, n * trees + 1, trees)
     total = int(offsets[-1] + forest.trees[-1].nodes)
+    import scipy.sparse
+
     return scipy.sparse.csr_matrix((data, cols, indptr), shape=(n, total))
 
 
@@ -259,6 +264,9 @@ def _symmetric_distances(D: NDArray) -> bool:
 
 def _leading_eigen(B: NDArray, dims: int) -> tuple[NDArray, NDArray]:
     """The ``dims`` largest eigenvalues of symmetric ``B`` (decreasing) and their unit eigenvectors."""
+    import scipy.linalg
+    import scipy.sparse.linalg
+
     n = B.shape[0]
     if n <= DENSE_EIGEN_LIMIT:
         values, vectors = scipy.linalg.eigh(B, subset_by_index=[n - dims, n - 1])

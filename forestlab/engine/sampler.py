@@ -9,11 +9,13 @@ from __future__ import annotations
 import abc
 import math
 import numbers
+import warnings
 from typing import ClassVar
 
 import numpy as np
 from numpy.typing import NDArray
 
+from .._warnings import CandidatesCappedWarning
 from .component import Component
 
 __all__ = ["CandidateSampler", "AllFeatures", "RandomSubset", "TreeSubspace", "checked_mask", "draw_masks"]
@@ -137,15 +139,17 @@ class RandomSubset(CandidateSampler):
     Parameters
     ----------
     m : int, float, {"sqrt", "log2"} or None
-        Candidates per split: an int, a fraction of the features, ``"sqrt"`` (``floor(sqrt(p))``), ``"log2"``
-        (``int(log2(p) + 1)``, Breiman 2001, section 5), or None for the common-practice default
-        (``floor(sqrt(p))`` for classification, ``max(1, floor(p/3))`` for regression).
+        Candidates per split: an int (one above ``p`` is capped at ``p``, with a
+        :class:`~forestlab.CandidatesCappedWarning`), a fraction of the features, ``"sqrt"``
+        (``floor(sqrt(p))``), ``"log2"`` (``int(log2(p) + 1)``, Breiman 2001, section 5), or None for the
+        common-practice default (``floor(sqrt(p))`` for classification, ``max(1, floor(p/3))`` for regression).
     """
 
     def __init__(self, m: int | float | str | None = None) -> None:
         self.m = _check_size(m, "m")
 
     def resolve(self, features: int, task: str) -> RandomSubset:
+        _warn_if_capped(self, features, "at every node")
         return RandomSubset(candidate_count(self.m, features, task))
 
     def draw(self, rng: np.random.Generator, nodes: int, features: int) -> NDArray[np.bool_]:
@@ -174,6 +178,7 @@ class TreeSubspace(CandidateSampler):
         self.m = _check_size(m, "m")
 
     def resolve(self, features: int, task: str) -> TreeSubspace:
+        _warn_if_capped(self, features, "for every tree")
         size = max(1, features // 2) if self.m is None else candidate_count(self.m, features, task)
         return TreeSubspace(size)
 
@@ -183,6 +188,13 @@ class TreeSubspace(CandidateSampler):
 
     def __repr__(self) -> str:
         return f"TreeSubspace({self.m!r})"
+
+
+def _warn_if_capped(sampler: RandomSubset | TreeSubspace, features: int, where: str) -> None:
+    """Warn when an int ``m`` exceeds the number of features (it is capped at ``p``)."""
+    if isinstance(sampler.m, int) and sampler.m > features:
+        warnings.warn(f"{sampler!r} asks for m = {sampler.m} candidate features {where}, but the data have p = "
+                      f"{features}; all {features} are candidates", CandidatesCappedWarning, stacklevel=6)
 
 
 def checked_mask(sampler: CandidateSampler, rng: np.random.Generator, nodes: int,

@@ -19,7 +19,7 @@ from .cuts import record_cuts
 from .presort import TrainingData
 from .running import running_sums
 from .segments import Items, Segments, run_starts, sorted_segments
-from .splitter import CartSplitter
+from .splitter import CartSplitter, call_splitter
 
 __all__ = ["Items", "Splits", "best_splits", "checked_impurity"]
 
@@ -55,7 +55,7 @@ class Splits:
 
 def checked_impurity(splitter: CartSplitter, S: NDArray[np.float64]) -> NDArray[np.float64]:
     """``splitter.impurity`` with a check that it stayed finite during growth."""
-    imp = splitter.impurity(S)
+    imp = call_splitter(splitter, "impurity", S)
     if not np.all(np.isfinite(imp)):
         raise FloatingPointError(f"{type(splitter).__name__}.impurity returned a non-finite value during growth")
     return imp

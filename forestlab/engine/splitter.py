@@ -26,7 +26,7 @@ from numpy.typing import NDArray
 
 from .component import Component
 
-__all__ = ["CartSplitter", "GiniSplitter", "EntropySplitter", "SquaredErrorSplitter"]
+__all__ = ["CartSplitter", "GiniSplitter", "EntropySplitter", "SquaredErrorSplitter", "call_splitter"]
 
 TASKS = ("classification", "regression")
 
@@ -156,3 +156,14 @@ class SquaredErrorSplitter(CartSplitter):
     def impurity(self, S: NDArray[np.float64]) -> NDArray[np.float64]:
         mean = S[..., 1] / S[..., 0]
         return np.maximum(S[..., 2] / S[..., 0] - mean * mean, 0.0)
+
+
+def call_splitter(splitter: CartSplitter, method: str, *args: object) -> object:
+    """``splitter.<method>(*args)``; an exception it raises comes back as a RuntimeError that names the class
+    and what it was given (shapes and dtypes), with the original chained as its cause."""
+    try:
+        return getattr(splitter, method)(*args)
+    except Exception as exc:
+        given = ", ".join(f"{a.dtype} array of shape {a.shape}" if isinstance(a, np.ndarray) else repr(a)
+                          for a in args)
+        raise RuntimeError(f"{type(splitter).__name__}.{method}({given}) raised {type(exc).__name__}: {exc}") from exc

@@ -15,8 +15,8 @@ from . import shared as _shared
 from .progress import ProgressCallback
 from .work import Grown
 
-__all__ = ["BlockFailed", "TreeGrowthError", "assemble", "cancel", "collect", "failure", "report_progress",
-           "submit_and_collect"]
+__all__ = ["BlockFailed", "TreeGrowthError", "assemble", "cancel", "collect", "died_while", "failure",
+           "report_progress", "submit_and_collect"]
 
 class TreeGrowthError(RuntimeError):
     """Growing a block of trees failed in a worker: the work raised, or the worker process died.
@@ -96,26 +96,32 @@ def failure(failed: BlockFailed, blocks: list[list[int]], board: NDArray[np.int6
     """The error for the caller: which trees, and what went wrong."""
     count = len(blocks)
     if isinstance(failed.error, BrokenExecutor):
-        lost = [] if board is None else [j for j in range(count) if board[j, 1] == _shared.STARTED]
-        if not lost:
-            return TreeGrowthError(
-                f"a worker process died unexpectedly before it started on any block (it could not start up, "
-                f"or was killed); {span(blocks[failed.k])} (block {failed.k + 1} of {count}) and the rest "
-                "were not grown and no trees were kept", blocks[failed.k])
-        where = "; ".join(
-            f"{span(blocks[j])} (block {j + 1} of {count}"
-            + (f", worker pid {board[j, 0]})" if board is not None and board[j, 0] else ")")
-            for j in lost
-        )
-        message = (f"a worker process died unexpectedly (killed, out of memory or crashed) while growing {where}; "
-                   "the fit was stopped and no trees were kept")
-        trees = [b for j in lost for b in blocks[j]]
-    else:
-        error = failed.error
-        message = (f"growing {span(blocks[failed.k])} (block {failed.k + 1} of {count}) failed in a worker: "
-                   f"{type(error).__name__}: {error}")
-        trees = blocks[failed.k]
-    return TreeGrowthError(message, trees)
+        lost = [] if board is None else [(j, int(board[j, 0])) for j in range(count) if board[j, 1] == _shared.STARTED]
+        return died_while(blocks, lost, failed.k)
+    error = failed.error
+    message = (f"growing {span(blocks[failed.k])} (block {failed.k + 1} of {count}) failed in a worker: "
+               f"{type(error).__name__}: {error}")
+    return TreeGrowthError(message, blocks[failed.k])
+
+
+def died_while(blocks: list[list[int]], lost: list[tuple[int, int]], waiting: int | None = None) -> TreeGrowthError:
+    """The error for a worker process that died: ``lost`` lists ``(block, pid)`` of the blocks it was growing
+    (pid 0 when unknown); with none, the worker died before it started on any (``waiting`` is then a block
+    that was not grown, when known)."""
+    count = len(blocks)
+    if not lost:
+        what = "" if waiting is None else f"{span(blocks[waiting])} (block {waiting + 1} of {count}) and the rest " \
+            "were not grown and "
+        return TreeGrowthError(
+            "a worker process died unexpectedly before it started on any block (it could not start up, or was "
+            f"killed; anything it printed is on stderr); {what}no trees were kept; should it keep happening, fit "
+            "with `workers=1` or give `executor=` a pool of your own",
+            () if waiting is None else blocks[waiting])
+    where = "; ".join(f"{span(blocks[j])} (block {j + 1} of {count}" + (f", worker pid {pid})" if pid else ")")
+                      for j, pid in lost)
+    return TreeGrowthError(f"a worker process died unexpectedly (killed, out of memory or crashed) while growing "
+                           f"{where}; the fit was stopped and no trees were kept",
+                           [b for j, _ in lost for b in blocks[j]])
 
 
 def assemble(results: list[Grown]) -> Grown:

@@ -7,11 +7,11 @@ workers, the executor, the block size or the order in which blocks finish.
 
 Where the data come from depends on the executor:
 
-- ``workers=k`` (k > 1): a pool of k processes of our own, started with the ``forkserver`` method where the
-  platform has it (``spawn`` elsewhere). ``fork`` is avoided on purpose: forking a process that runs threads
-  (a dask client, a GUI, a thread pool, some BLAS builds) can copy a held lock into the child and hang it.
-  Workers map the training data read-only from shared memory (``_shared``), ignore Ctrl-C (the fitting
-  process handles it and stops them), and exit if the fitting process disappears.
+- ``workers=k`` (k > 1): a pool of k processes of our own (:mod:`.pool`), each a fresh interpreter started
+  from forestlab's own entry point (:mod:`.worker`), so nothing of the user's ``__main__`` is imported or run
+  in it; ``fork`` is never used. Workers map the training data read-only from shared memory (``_shared``),
+  get their blocks over pipes, ignore Ctrl-C (the fitting process handles it and stops them), and exit if
+  the fitting process disappears.
 - any other ``concurrent.futures.Executor`` whose workers run on this machine (a ``ProcessPoolExecutor``, ...):
   the same shared memory, mapped per block; a ``ThreadPoolExecutor`` simply shares the arrays.
 - a dask distributed executor (``client.get_executor()``, recognised by duck typing, dask is never imported

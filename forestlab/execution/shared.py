@@ -36,7 +36,7 @@ SEGMENT_PREFIX = "forestlab_"
 _ALIGN = 64
 
 # Block states on the board.
-PENDING, STARTED, DONE, FAILED, STOPPED = 0, 1, 2, 3, 4
+PENDING, STARTED, DONE, FAILED = 0, 1, 2, 3
 
 
 @dataclass(frozen=True)

@@ -21,9 +21,9 @@ from ..engine.grow import GrowthRules
 from ..engine.sampler import CandidateSampler, RandomSubset, _check_size
 from ..engine.splitter import TASKS, CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from .validation import Target, int_at_least
-from .weights import check_balance, check_class_weights, class_weight_vector
+from .weights import check_balance, check_class_priors, class_factors
 
-__all__ = ["Provenance", "Settings", "check_class_options", "check_settings", "class_vector", "resolve_rules",
+__all__ = ["Provenance", "Settings", "check_class_options", "check_settings", "priors_and_factors", "resolve_rules",
            "task_for"]
 
 SPLITTER_NAMES = {"entropy": EntropySplitter, "gini": GiniSplitter, "squared_error": SquaredErrorSplitter}
@@ -44,7 +44,7 @@ class Settings:
     workers: int
     categorical: tuple[int | str, ...] | None = None
     balance: str | None = None
-    class_weights: dict | str | None = None
+    class_priors: dict | str | None = None
     executor: concurrent.futures.Executor | None = None
     progress: Any = None
 
@@ -153,7 +153,7 @@ def _check_progress(progress: Any) -> Any:
 
 def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth_limit: Any,
                    sample_size: Any, replace: Any, task: Any, workers: Any, categorical: Any = None,
-                   balance: Any = None, class_weights: Any = None, executor: Any = None,
+                   balance: Any = None, class_priors: Any = None, executor: Any = None,
                    progress: Any = None) -> Settings:
     """Validate the Forest constructor arguments."""
     if task is not None and task not in TASKS:
@@ -173,12 +173,12 @@ def check_settings(trees: Any, sampler: Any, splitter: Any, min_leaf: Any, depth
         workers=workers,
         categorical=_check_categorical(categorical),
         balance=check_balance(balance),
-        class_weights=check_class_weights(class_weights),
+        class_priors=check_class_priors(class_priors),
         executor=_check_executor(executor, workers),
         progress=_check_progress(progress),
     )
-    if task == "regression" and (settings.balance is not None or settings.class_weights is not None):
-        raise ValueError("`balance` and `class_weights` are for classification, but `task` is 'regression'")
+    if task == "regression" and (settings.balance is not None or settings.class_priors is not None):
+        raise ValueError("`balance` and `class_priors` are for classification, but `task` is 'regression'")
     if settings.splitter is not None and task is not None and settings.splitter.task != task:
         raise ValueError(f"`splitter` {settings.splitter!r} is for {settings.splitter.task}, but `task` is {task!r}")
     return settings
@@ -197,14 +197,19 @@ class Provenance:
         Root seed; tree ``b`` draws from ``SeedSequence(seed.entropy, spawn_key=seed.spawn_key + (b,))``.
     fingerprint : str
         SHA-256 of the training data as the trees saw them (:func:`~.fingerprint.data_fingerprint`).
-    class_weights : dict or None
-        Label -> weight of every class when class weights were set.
+    class_priors : dict or None
+        Label -> prior of every class when class priors were set (None without, or when a version-1 model
+        file did not hold what they were).
+    class_factors : dict or None
+        Label -> the factor every case weight of the class was multiplied by in growth (see
+        :func:`~.weights.class_factors`), when class priors (or a version-1 file's class weights) were set.
     """
 
     rules: GrowthRules
     seed: np.random.SeedSequence
     fingerprint: str
-    class_weights: dict | None = None
+    class_priors: dict | None = None
+    class_factors: dict | None = None
 
 
 def task_for(settings: Settings) -> str | None:
@@ -215,15 +220,20 @@ def task_for(settings: Settings) -> str | None:
 
 
 def check_class_options(settings: Settings, target: Target) -> None:
-    """``balance`` and ``class_weights`` only with classification targets."""
-    if target.task == "regression" and (settings.balance is not None or settings.class_weights is not None):
-        raise ValueError("`balance` and `class_weights` are for classification, but the task is regression")
+    """``balance`` and ``class_priors`` only with classification targets."""
+    if target.task == "regression" and (settings.balance is not None or settings.class_priors is not None):
+        raise ValueError("`balance` and `class_priors` are for classification, but the task is regression")
 
 
-def class_vector(settings: Settings, target: Target) -> NDArray[np.float64] | None:
-    """Weight of each class in vote-column order, or None without class weights."""
-    spec = settings.class_weights
-    return None if spec is None else class_weight_vector(spec, target.classes, target.values)
+def priors_and_factors(settings: Settings, target: Target,
+                       case_weights: NDArray[np.float64] | None) -> tuple[dict | None, dict | None]:
+    """Label -> prior and label -> class factor of every class, or (None, None) without class priors."""
+    spec = settings.class_priors
+    if spec is None:
+        return None, None
+    priors, factors = class_factors(spec, target.classes, target.values, case_weights)
+    labels = target.classes.tolist()
+    return dict(zip(labels, priors.tolist())), dict(zip(labels, factors.tolist()))
 
 
 def resolve_rules(settings: Settings, target: Target, shape: tuple[int, int]) -> GrowthRules:

@@ -15,7 +15,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._warnings import SingleClassWarning
-from ..engine.splitter import CartSplitter
+from ..engine.splitter import CartSplitter, call_splitter
 
 __all__ = ["Target", "check_X", "check_splitter_output", "check_y", "int_at_least", "resolve_categorical"]
 
@@ -145,6 +145,10 @@ def _encode_classes(arr: NDArray) -> Target:
         classes, codes = np.unique(arr, return_inverse=True)
     except TypeError:
         raise TypeError("`y` labels must be mutually comparable (e.g. all strings or all numbers)") from None
+    if arr.dtype.kind == "f" and classes.size > arr.size / 2:
+        raise ValueError(f"`y` holds {classes.size} distinct float values among {arr.size} cases, which as classes "
+                         "would have a case or two each; for a numeric target give `task=\"regression\"` (with a "
+                         "regression splitter), or pass labels as ints or strings")
     if classes.size == 1:
         warnings.warn(f"`y` holds a single class ({classes[0].item()!r}); every tree will predict it",
                       SingleClassWarning, stacklevel=5)
@@ -156,7 +160,7 @@ def check_splitter_output(splitter: CartSplitter, target: Target) -> NDArray[np.
     name = type(splitter).__name__
     classes = 0 if target.classes is None else int(target.classes.size)
     n = target.values.size
-    stats = np.asarray(splitter.statistics(target.values, classes))
+    stats = np.asarray(call_splitter(splitter, "statistics", target.values, classes))
     if stats.ndim != 2 or stats.shape[0] != n:
         raise ValueError(f"{name}.statistics must return an array of shape (n, s) = ({n}, s); got {stats.shape}")
     stats = stats.astype(np.float64)
@@ -165,7 +169,7 @@ def check_splitter_output(splitter: CartSplitter, target: Target) -> NDArray[np.
     S = np.concatenate([np.ones((n, 1)), stats], axis=1)
     probes = [S, S.sum(axis=0), np.stack([S[: max(1, n // 2)].sum(0), S[max(1, n // 2) - 1:].sum(0)]).reshape(2, 1, -1)]
     for probe in probes:
-        imp = np.asarray(splitter.impurity(probe))
+        imp = np.asarray(call_splitter(splitter, "impurity", probe))
         if imp.shape != probe.shape[:-1]:
             raise ValueError(
                 f"{name}.impurity must map statistics of shape {probe.shape} to shape {probe.shape[:-1]}; "

@@ -1,8 +1,9 @@
-"""Case weights and class weights: validated here, multiplied into the per-case statistics at presort.
+"""Case weights and class priors: validated here, multiplied into the per-case statistics at presort.
 
 A case of weight ``w`` drawn ``c`` times into a bootstrap sample weighs ``c * w`` in every sum the grower
 takes (split scores, ``min_leaf``, node ``cases``, leaf values); the in-bag counts themselves stay the
-unweighted draw counts.
+unweighted draw counts. Class priors act the same way, through one factor per class (see
+:func:`class_factors`).
 """
 
 from __future__ import annotations
@@ -13,10 +14,12 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["BALANCE_CHOICES", "check_balance", "check_class_weights", "check_weights", "class_weight_vector",
-           "growth_weights"]
+__all__ = ["BALANCE_CHOICES", "PRIOR_CHOICES", "check_balance", "check_class_priors", "check_weights",
+           "class_factors", "growth_weights"]
 
 BALANCE_CHOICES = ("classes",)
+PRIOR_CHOICES = ("equal",)
+MSG_PRIORS = "`class_priors` must be None, 'equal' or a dict label -> prior"
 
 
 def check_weights(weights: Any, rows: int) -> NDArray[np.float64] | None:
@@ -55,49 +58,65 @@ def check_balance(balance: Any) -> str | None:
     return balance
 
 
-def check_class_weights(spec: Any) -> dict | str | None:
-    """``class_weights`` is None, ``"balanced"`` or a dict label -> positive finite weight (copied)."""
+def check_class_priors(spec: Any) -> dict | str | None:
+    """``class_priors`` is None, ``"equal"`` or a dict label -> positive finite prior (copied, not yet normalised)."""
     if spec is None:
         return None
     if isinstance(spec, str):
-        if spec != "balanced":
-            raise ValueError(f"`class_weights` must be None, 'balanced' or a dict label -> weight; got {spec!r}")
+        if spec not in PRIOR_CHOICES:
+            raise ValueError(f"{MSG_PRIORS}; got {spec!r}")
         return spec
     if not isinstance(spec, dict):
-        raise TypeError(f"`class_weights` must be None, 'balanced' or a dict label -> weight; "
-                        f"got {type(spec).__name__}")
-    for label, w in spec.items():
-        if isinstance(w, (bool, np.bool_)) or not isinstance(w, numbers.Real) or not np.isfinite(w) or w <= 0:
-            raise ValueError(f"`class_weights` must map labels to positive finite numbers; "
-                             f"got {w!r} for {label!r}")
-    return {label: float(w) for label, w in spec.items()}
+        raise TypeError(f"{MSG_PRIORS}; got {type(spec).__name__}")
+    for label, prior in spec.items():
+        if isinstance(prior, (bool, np.bool_)) or not isinstance(prior, numbers.Real) or not np.isfinite(prior) \
+                or prior <= 0:
+            raise ValueError(f"`class_priors` must map labels to positive finite numbers; got {prior!r} for {label!r}")
+    return {label: float(prior) for label, prior in spec.items()}
 
 
-def class_weight_vector(spec: dict | str, classes: NDArray, codes: NDArray[np.int64]) -> NDArray[np.float64]:
-    """Weight of each class in vote-column order.
+def class_factors(spec: dict | str, classes: NDArray, codes: NDArray[np.int64],
+                  case_weights: NDArray[np.float64] | None) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """The prior of every class and the factor that gives it, both in vote-column order.
 
-    ``"balanced"`` gives class ``k`` the weight ``n / (K * n_k)`` (``n_k`` unweighted case counts), so every
-    class carries the same total weight (common practice). A dict gives each listed class its weight and the
-    others 1; a label that is not a class of ``y`` is an error.
+    Priors ``pi_k`` make class ``k`` carry the share ``pi_k`` of the weight at every root: each case of class
+    ``k`` is weighted by ``pi_k * W / W_k``, with ``W_k`` the total case weight of class ``k`` (its number of
+    cases without case weights) and ``W`` that of all, so that the node probabilities are ``p(k|t)``
+    proportional to ``pi_k N_k(t) / N_k`` (Breiman, Friedman, Olshen & Stone 1984, *Classification and
+    Regression Trees*, chapter 4, "Priors and variable misclassification costs"; section number from
+    memory). ``"equal"`` gives every class ``1 / K``; a dict gives every class a prior (normalised to sum to
+    1); ``class_priors=None`` keeps the priors of the data themselves (``W_k / W``, no reweighting).
+    Misclassification costs that depend on the true class only amount to priors in proportion to
+    ``cost_k * W_k`` (the same chapter).
     """
     K = classes.size
-    if spec == "balanced":
-        n_k = np.bincount(codes, minlength=K)
-        return codes.size / (K * n_k)
+    totals = np.bincount(codes, weights=case_weights, minlength=K)
     labels = classes.tolist()
-    unknown = [key for key in spec if key not in set(labels)]
-    if unknown:
-        names = ", ".join(sorted(map(repr, unknown)))
-        raise ValueError(f"`class_weights` names {names}, which are not classes of `y` ({labels})")
-    return np.array([spec.get(label, 1.0) for label in labels], dtype=np.float64)
+    if spec == "equal":
+        priors = np.full(K, 1.0 / K)
+    else:
+        unknown = [key for key in spec if key not in set(labels)]
+        missing = [label for label in labels if label not in spec]
+        if unknown or missing:
+            what = [f"names {', '.join(sorted(map(repr, unknown)))}, which are not classes of `y`"] if unknown else []
+            what += [f"gives no prior for {', '.join(map(repr, missing))}"] if missing else []
+            raise ValueError(f"`class_priors` {' and '.join(what)} (the classes: {labels})")
+        priors = np.array([spec[label] for label in labels], dtype=np.float64)
+        priors = priors / priors.sum()
+    empty = [labels[k] for k in np.flatnonzero(totals == 0)]
+    if empty:
+        raise ValueError(f"`class_priors` needs weight in every class, but the cases of {empty[0]!r} weigh 0")
+    W = totals.sum()
+    factors = W / (K * totals) if spec == "equal" else W * priors / totals
+    return priors, factors
 
 
-def growth_weights(case_weights: NDArray[np.float64] | None, class_vector: NDArray[np.float64] | None,
+def growth_weights(case_weights: NDArray[np.float64] | None, factors: NDArray[np.float64] | None,
                    codes: NDArray[np.int64]) -> NDArray[np.float64] | None:
-    """Per-case weights the trees are grown with: case weights times class weights (None when neither)."""
-    if case_weights is None and class_vector is None:
+    """Per-case weights the trees are grown with: case weights times class factors (None when neither)."""
+    if case_weights is None and factors is None:
         return None
     w = np.ones(codes.size) if case_weights is None else case_weights.copy()
-    if class_vector is not None:
-        w *= class_vector[codes]
+    if factors is not None:
+        w *= factors[codes]
     return w

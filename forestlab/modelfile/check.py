@@ -13,7 +13,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["ModelFileError", "check_class_labels", "check_class_vector", "check_classes", "check_feature_names",
+__all__ = ["ModelFileError", "check_class_labels", "check_class_numbers", "check_classes", "check_feature_names",
            "check_finite", "check_fingerprint", "check_levels", "check_seed", "check_trees", "field", "int_field"]
 
 # dtypes of the node arrays, as written (little-endian); a file with any other dtype is refused
@@ -182,15 +182,15 @@ def check_class_labels(header: dict, arrays: dict, task: str) -> NDArray | None:
     return classes.astype(object) if field(labels, "object", bool, "classes") else classes
 
 
-def check_class_vector(header: dict, K: int) -> NDArray[np.float64] | None:
-    """The class weights: one positive finite number per class, or None."""
-    values = field(header, "class_weight_values", (list, type(None)))
+def check_class_numbers(header: dict, key: str, K: int) -> NDArray[np.float64] | None:
+    """The header's list ``key`` of one positive finite number per class (priors, class factors), or None."""
+    values = field(header, key, (list, type(None)))
     if values is None:
         return None
     vector = np.array(values, dtype=np.float64) if all(isinstance(v, (int, float)) and not isinstance(v, bool)
                                                        for v in values) else np.empty(0)
     if vector.shape != (K,) or not np.all(np.isfinite(vector)) or not np.all(vector > 0):
-        raise ModelFileError("the header's class weights must be one positive number per class")
+        raise ModelFileError(f"the header's {key} must be one positive number per class")
     return vector
 
 

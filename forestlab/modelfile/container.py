@@ -8,6 +8,7 @@ and the trees are validated by :mod:`._modelcheck` before a forest is built from
 
 from __future__ import annotations
 
+import errno
 import io
 import json
 import os
@@ -24,10 +25,12 @@ from numpy.typing import NDArray
 from .check import NODE_DTYPES, ModelFileError, field, int_field
 from .oob import oob_shapes
 
-__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "ModelFileError", "read_model", "write_model"]
+__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "READ_VERSIONS", "ModelFileError", "read_model", "write_model"]
 
 FORMAT_NAME = "forestlab-forest"
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
+#: Versions this forestlab reads: version 1 named the class priors "class weights" (see docs/file-format.md).
+READ_VERSIONS = (1, 2)
 MAX_MEMBERS = 32
 MAX_HEADER_BYTES = 256 * 2**20
 NODE_MEMBERS = tuple(NODE_DTYPES)
@@ -45,7 +48,13 @@ def write_model(path: str | PathLike, header: dict, arrays: dict[str, NDArray]) 
     text = json.dumps(header, allow_nan=False, sort_keys=True, indent=1).encode("utf-8")
     members = {"header": np.frombuffer(text, dtype=np.uint8), **arrays}
     folder = os.path.dirname(os.path.abspath(path))
-    fd, temporary = tempfile.mkstemp(prefix=".forestlab-", suffix=".tmp", dir=folder)
+    if not os.path.isdir(folder):
+        raise FileNotFoundError(errno.ENOENT, f"cannot save to {path!r}: the folder {folder!r} does not exist")
+    try:
+        fd, temporary = tempfile.mkstemp(prefix=".forestlab-", suffix=".tmp", dir=folder)
+    except OSError as exc:  # it would name the temporary file, not the folder
+        raise type(exc)(exc.errno, f"cannot save to {path!r}: cannot write into the folder {folder!r} "
+                                   f"({exc.strerror})") from None
     try:
         with os.fdopen(fd, "wb") as fh:
             np.savez(fh, **members)
@@ -128,8 +137,9 @@ def _read_header(zf: zipfile.ZipFile, infos: dict[str, zipfile.ZipInfo]) -> dict
     if not isinstance(header, dict) or header.get("format") != FORMAT_NAME:
         raise ModelFileError("the header does not name the forestlab forest format")
     version = field(header, "format_version", int)
-    if version != FORMAT_VERSION:
-        raise ModelFileError(f"format version {version} is not supported (this forestlab reads {FORMAT_VERSION})")
+    if version not in READ_VERSIONS:
+        raise ModelFileError(f"format version {version} is not supported (this forestlab reads versions "
+                             f"{', '.join(map(str, READ_VERSIONS))})")
     return header
 
 

@@ -28,7 +28,7 @@ from .check import (
     TREE_FIELDS,
     ModelFileError,
     check_class_labels,
-    check_class_vector,
+    check_class_numbers,
     check_feature_names,
     check_fingerprint,
     check_finite,
@@ -84,8 +84,11 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Stored
     splitter = _restore(field(header, "splitter", dict), "splitter", components)
     if isinstance(splitter, CartSplitter) and splitter.task != task:
         raise ModelFileError(f"the file's splitter {splitter!r} is for {splitter.task}, but its task is {task}")
-    class_vector = check_class_vector(header, K)
-    settings = _settings(header, task, sampler, splitter, classes, class_vector)
+    fingerprint = check_fingerprint(header)
+    X, y = _training_data(arrays, classes, weights, fingerprint)
+    spec, priors, factors = _class_priors(header, classes, y if y is not None else arrays.get("oob_observed"),
+                                          weights)
+    settings = _settings(header, task, sampler, splitter, spec)
     frame = _frame_labels(header, names)
     if sorted(resolve_categorical(settings.categorical, len(names), list(names), frame=frame)) != sorted(levels):
         raise ModelFileError("the header's categorical setting does not match the stored category levels")
@@ -93,10 +96,8 @@ def _build(header: dict, arrays: dict[str, NDArray], components: list) -> Stored
     provenance = Provenance(
         rules=GrowthRules(sampler=sampler, splitter=splitter, min_leaf=float(s["min_leaf"]),
                           depth_limit=s["depth_limit"], sample_size=s["sample_size"], replace=s["replace"]),
-        seed=check_seed(header), fingerprint=check_fingerprint(header),
-        class_weights=None if class_vector is None else dict(zip(classes.tolist(), class_vector.tolist())))
+        seed=check_seed(header), fingerprint=fingerprint, class_priors=priors, class_factors=factors)
     trees = _trees(arrays)
-    X, y = _training_data(arrays, classes, weights, provenance.fingerprint)
     view = FittedForest(task=task, trees=tuple(trees), inbag=arrays["inbag"], classes=classes,
                         feature_names=names, levels=levels, frame_labels={k: tuple(v) for k, v in frame.items()},
                         case_weights=weights, X=X, y=y)
@@ -145,14 +146,46 @@ def _restore(record: dict, kind: str, components: list) -> Any:
     return StoredComponent(kind, name, module, attributes)
 
 
-def _settings(header: dict, task: str, sampler: Any, splitter: Any, classes: NDArray | None,
-              class_vector: NDArray | None) -> Settings:
+def _class_priors(header: dict, classes: NDArray | None, codes: NDArray[np.int64] | None,
+                  weights: NDArray[np.float64] | None) -> tuple[Any, dict | None, dict | None]:
+    """The ``class_priors`` setting, label -> prior and label -> class factor (None each when not set).
+
+    Version 1 stored the factors alone, as "class weights" (``"balanced"`` for equal priors): given weights
+    become the priors they amount to, ``factor_k * W_k`` normalised, from the class totals of the stored
+    targets or out-of-bag labels; a file with neither keeps the factors and no priors.
+    """
+    K = 0 if classes is None else classes.size
+    s = field(header, "settings", dict)
+    labels = [] if classes is None else classes.tolist()
+    if header["format_version"] == 1:
+        spec = field(s, "class_weights", (str, type(None)), "settings")
+        factors = check_class_numbers(header, "class_weight_values", K)
+        if (spec is None) != (factors is None) or spec not in (None, "balanced", "given"):
+            raise ModelFileError("the header's class weight settings are inconsistent")
+        if spec is None:
+            return None, None, None
+        if spec == "balanced":
+            return "equal", dict(zip(labels, [1.0 / K] * K)), dict(zip(labels, factors.tolist()))
+        if codes is None:
+            return None, None, dict(zip(labels, factors.tolist()))
+        amounts = factors * np.bincount(codes, weights=weights, minlength=K)
+        priors = dict(zip(labels, (amounts / amounts.sum()).tolist()))
+        return priors, priors, dict(zip(labels, factors.tolist()))
+    spec = field(s, "class_priors", (str, type(None)), "settings")
+    priors = check_class_numbers(header, "class_priors", K)
+    factors = check_class_numbers(header, "class_factors", K)
+    if spec not in (None, "equal", "given") or (spec is None) != (priors is None) \
+            or (priors is not None and (factors is None or not np.isclose(priors.sum(), 1.0, rtol=1e-9))) \
+            or (spec == "equal" and not np.allclose(priors, 1.0 / K, rtol=1e-12)):
+        raise ModelFileError("the header's class priors are inconsistent")
+    as_dict = None if priors is None else dict(zip(labels, priors.tolist()))
+    return ("equal" if spec == "equal" else as_dict), as_dict, \
+        None if factors is None else dict(zip(labels, factors.tolist()))
+
+
+def _settings(header: dict, task: str, sampler: Any, splitter: Any, priors: Any) -> Settings:
     """The saved settings (resolved values), checked as the constructor checks its arguments."""
     s = field(header, "settings", dict)
-    spec = field(s, "class_weights", (str, type(None)), "settings")
-    if (spec is None) != (class_vector is None) or spec not in (None, "balanced", "given"):
-        raise ModelFileError("the header's class weight settings are inconsistent")
-    given = dict(zip(classes.tolist(), class_vector.tolist())) if spec == "given" else spec
     settings = check_settings(header["trees"], sampler if is_component(sampler) else None,
                               splitter if is_component(splitter) else None,
                               field(s, "min_leaf", (int, float), "settings"),
@@ -160,7 +193,7 @@ def _settings(header: dict, task: str, sampler: Any, splitter: Any, classes: NDA
                               int_field(s, "sample_size", 1, "settings"), field(s, "replace", bool, "settings"),
                               task, int_field(s, "workers", 1, "settings"),
                               field(s, "categorical", (list, type(None)), "settings"),
-                              field(s, "balance", (str, type(None)), "settings"), given)
+                              field(s, "balance", (str, type(None)), "settings"), priors)
     return dataclasses.replace(settings, sampler=sampler, splitter=splitter)
 
 

@@ -6,7 +6,6 @@ See ``docs/file-format.md`` for the layout; :mod:`.container` writes the ``.npz`
 from __future__ import annotations
 
 import json
-import warnings
 from os import PathLike
 from typing import Any
 
@@ -14,8 +13,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._version import __version__
-from .._warnings import NeverOutOfBagWarning
-from ..analyses.oob import out_of_bag
+from ..analyses.oob import known_out_of_bag
 from ..analyses.results import OutOfBag
 from ..analyses.view import FittedForest
 from .check import LABEL_KINDS, NODE_DTYPES, TREE_FIELDS
@@ -23,7 +21,7 @@ from .container import FORMAT_NAME, FORMAT_VERSION, write_model
 from .oob import oob_arrays
 from .stored import BUILTIN, StoredComponent, StoredForest
 
-__all__ = ["write_forest"]
+__all__ = ["stored_oob", "write_forest"]
 
 
 def write_forest(path: str | PathLike, stored: StoredForest, include_data: bool = False) -> None:
@@ -44,7 +42,7 @@ def write_forest(path: str | PathLike, stored: StoredForest, include_data: bool 
     if include_data:
         arrays["X"] = view.X.astype("<f8")
         arrays["y"] = view.y.astype("<i8" if view.classes is not None else "<f8")
-    oob = _oob_to_store(stored)
+    oob = stored_oob(stored)
     if oob is not None:
         arrays.update(oob_arrays(oob, view.y))
     header = _header(stored, labels, bool(include_data), arrays)
@@ -63,19 +61,14 @@ def _tree_arrays(view: FittedForest) -> dict[str, NDArray]:
     return arrays
 
 
-def _oob_to_store(stored: StoredForest) -> OutOfBag | None:
+def stored_oob(stored: StoredForest) -> OutOfBag | None:
     """The forest's OOB results (computed now if the training data allow), or None."""
-    if stored.oob is not None or not stored.view.has_data:
-        return stored.oob
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", NeverOutOfBagWarning)
-        return out_of_bag(stored.view)
+    return known_out_of_bag(stored.view, stored.oob)
 
 
 def _header(stored: StoredForest, labels: dict | None, include_data: bool, arrays: dict) -> dict:
     view, s, grown = stored.view, stored.settings, stored.provenance
-    rules, seed, spec = grown.rules, grown.seed, s.class_weights
-    class_values = None if grown.class_weights is None else list(grown.class_weights.values())
+    rules, seed, spec = grown.rules, grown.seed, s.class_priors
     return {
         "format": FORMAT_NAME, "format_version": FORMAT_VERSION, "forestlab_version": __version__,
         "task": view.task, "trees": len(view.trees), "nodes": int(arrays["feature"].size),
@@ -86,10 +79,11 @@ def _header(stored: StoredForest, labels: dict | None, include_data: bool, array
         "category_levels": int(arrays["level_values"].size),
         "settings": {"min_leaf": rules.min_leaf, "depth_limit": rules.depth_limit,
                      "sample_size": rules.sample_size, "replace": rules.replace, "balance": s.balance,
-                     "class_weights": None if spec is None else ("balanced" if spec == "balanced" else "given"),
+                     "class_priors": None if spec is None else ("equal" if spec == "equal" else "given"),
                      "workers": s.workers,
                      "categorical": None if s.categorical is None else list(s.categorical)},
-        "class_weight_values": class_values,
+        "class_priors": None if grown.class_priors is None else list(grown.class_priors.values()),
+        "class_factors": None if grown.class_factors is None else list(grown.class_factors.values()),
         "sampler": _describe(rules.sampler, "sampler"), "splitter": _describe(rules.splitter, "splitter"),
         "seed": {"entropy": _seed_words(seed.entropy), "spawn_key": [int(k) for k in seed.spawn_key],
                  "pool_size": int(seed.pool_size)},

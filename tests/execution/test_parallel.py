@@ -26,10 +26,8 @@ import forestlab as fl
 import forestlab._fitting as forest_module
 from forestlab.execution import parallel as _parallel
 from forestlab.execution import pool as _pool
-from forestlab.execution import shared as _shared
 from forestlab.synthetic import friedman1, twonorm
-
-SHM = Path("/dev/shm")
+from processes import leftover_segments, session_members, wait_gone
 
 
 def _problem(task="classification", n=240):
@@ -50,28 +48,10 @@ def _assert_same_forest(a: fl.Forest, b: fl.Forest) -> None:
             assert not xb.flags.writeable
 
 
-def _leftover_segments(pid: int | None = None) -> list[str]:
-    prefix = f"{_shared.SEGMENT_PREFIX}{os.getpid() if pid is None else pid}_"
-    return sorted(p.name for p in SHM.iterdir() if p.name.startswith(prefix)) if SHM.is_dir() else []
-
-
-def _alive(pid: int) -> bool:
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    try:
-        return Path(f"/proc/{pid}/stat").read_text().split(")")[-1].split()[0] != "Z"
-    except OSError:
-        return True
-
-
-def _wait_gone(pids, seconds=20.0) -> list[int]:
-    """Pids still alive after waiting up to ``seconds`` (not a timing check: a bound on a hang)."""
-    end = time.monotonic() + seconds
-    while time.monotonic() < end and any(_alive(p) for p in pids):
-        time.sleep(0.05)
-    return [p for p in pids if _alive(p)]
+def _callers_context() -> multiprocessing.context.BaseContext:
+    """A context for a process pool of the caller's own (not fork: see forestlab.execution.pool)."""
+    return multiprocessing.get_context("forkserver" if "forkserver" in multiprocessing.get_all_start_methods()
+                                       else "spawn")
 
 
 class Misbehaving(fl.CandidateSampler):
@@ -154,8 +134,12 @@ class TestPlanBlocks:
         assert [len(b) for b in _parallel.plan_blocks(range(100), 64)] == [64, 36]
         assert [len(b) for b in _parallel.plan_blocks(range(40), 64)] == [40]
 
-    def test_start_method_is_not_fork(self):
-        assert _pool.start_method() in ("forkserver", "spawn")
+    def test_workers_start_from_forestlab_not_by_fork(self, tmp_path):
+        """Our workers are fresh interpreters running forestlab's boot code (never a fork of this process)."""
+        X, y = _problem()
+        fl.Forest(trees=8, rng=5, workers=2, sampler=_Recorder(str(tmp_path))).fit(X, y)
+        commands = {Path(tmp_path, f"pid{p}").read_text() for p in _worker_pids(tmp_path) if p != os.getpid()}
+        assert commands == {"\0".join(_pool.worker_command()) + "\0"}
 
 
 @pytest.fixture(scope="module")
@@ -168,7 +152,7 @@ class TestInvariance:
     def test_workers_two(self, reference):
         X, y, ref = reference
         _assert_same_forest(ref, fl.Forest(trees=18, rng=5, workers=2).fit(X, y))
-        assert _leftover_segments() == []
+        assert leftover_segments() == []
 
     def test_thread_pool(self, reference):
         X, y, ref = reference
@@ -177,14 +161,14 @@ class TestInvariance:
 
     def test_process_pool_of_the_caller(self, reference):
         X, y, ref = reference
-        context = multiprocessing.get_context(_pool.start_method())
+        context = _callers_context()
         with ProcessPoolExecutor(2, mp_context=context) as pool:
             _assert_same_forest(ref, fl.Forest(trees=18, rng=5, executor=pool).fit(X, y))
             # the same pool serves a second fit on other data (fresh segment, nothing cached)
             X2, y2 = _problem(n=150)
             _assert_same_forest(fl.Forest(trees=7, rng=1).fit(X2, y2),
                                 fl.Forest(trees=7, rng=1, executor=pool).fit(X2, y2))
-        assert _leftover_segments() == []
+        assert leftover_segments() == []
 
     @pytest.mark.parametrize("max_batch", [1, 4, 64])
     def test_batch_sizes(self, reference, monkeypatch, max_batch):
@@ -254,8 +238,8 @@ class TestFailures:
             forest.fit(X, y)
         assert isinstance(info.value.__cause__, ValueError)
         assert len(info.value.trees) >= 1
-        assert _leftover_segments() == []
-        assert _wait_gone(_worker_pids(tmp_path)) == []
+        assert leftover_segments() == []
+        assert wait_gone(_worker_pids(tmp_path)) == []
         assert X.flags.writeable and np.array_equal(X, X_before)
 
     def test_worker_killed(self, tmp_path):
@@ -269,19 +253,34 @@ class TestFailures:
         killed = int(Path(tmp_path, "chosen").read_text())
         assert f"worker pid {killed})" in str(info.value)
         assert str(info.value).count("block ") == 1  # the survivor's block is not blamed
-        assert _leftover_segments() == []
-        assert _wait_gone(_worker_pids(tmp_path)) == []
+        assert leftover_segments() == []
+        assert wait_gone(_worker_pids(tmp_path)) == []
         assert X.flags.writeable and np.array_equal(X, X_before)
 
     def test_raise_in_the_callers_process_pool(self, tmp_path):
         X, y = _problem()
-        context = multiprocessing.get_context(_pool.start_method())
+        context = _callers_context()
         sampler = Misbehaving(os.getpid(), "raise", str(tmp_path))
         with ProcessPoolExecutor(2, mp_context=context) as pool:
             with pytest.raises(fl.TreeGrowthError, match=r"ValueError: boom in a worker"):
                 fl.Forest(trees=18, rng=5, sampler=sampler, executor=pool).fit(X, y)
             assert pool.submit(int, "3").result() == 3  # the caller's pool still works
-        assert _leftover_segments() == []
+        assert leftover_segments() == []
+
+    def test_workers_that_cannot_start_say_what_to_do(self, monkeypatch):
+        """A worker that exits before it is ready (say, an interpreter that cannot import forestlab), and a
+        platform that cannot start processes at all: both errors end with what to do instead."""
+        X, y = _problem()
+        _pool._end_idle()   # no idle worker of an earlier fit: these must be started
+        monkeypatch.setattr(_pool, "worker_command", lambda: [sys.executable, "-c", "raise SystemExit(3)"])
+        with pytest.raises(fl.TreeGrowthError, match=r"died unexpectedly before it started on any block .* fit "
+                                                     r"with `workers=1` or give `executor=` a pool of your own"):
+            fl.Forest(trees=8, rng=5, workers=2).fit(X, y)
+        monkeypatch.setattr(_pool, "worker_command", lambda: [str(Path(sys.executable).parent / "no-such-python")])
+        with pytest.raises(RuntimeError, match=r"could not start worker processes for `workers=2` \(.*no-such-python"
+                                               r".*\); fit with `workers=1`, or give `executor=` a pool of your own"):
+            fl.Forest(trees=8, rng=5, workers=2).fit(X, y)
+        assert leftover_segments() == []
 
     def test_interrupt_from_the_callback_stops_the_workers(self, tmp_path):
         X, y = _problem()
@@ -292,9 +291,9 @@ class TestFailures:
         sampler = _Recorder(str(tmp_path))
         with pytest.raises(KeyboardInterrupt):
             fl.Forest(trees=40, rng=5, workers=2, sampler=sampler, progress=progress).fit(X, y)
-        assert _leftover_segments() == []
+        assert leftover_segments() == []
         workers = [p for p in _worker_pids(tmp_path) if p != os.getpid()]
-        assert workers and _wait_gone(workers) == []
+        assert workers and wait_gone(workers) == []
 
     def test_ctrl_c_in_a_real_process(self, tmp_path):
         """SIGINT to the whole process group, as a terminal's Ctrl-C sends it."""
@@ -324,64 +323,61 @@ class TestFailures:
                     os.killpg(proc.pid, signal.SIGKILL)
                     proc.wait()
         assert proc.returncode != 0 and "KeyboardInterrupt" in err and "finished" not in out
-        assert _leftover_segments(proc.pid) == []
-        assert _wait_gone(_session_members(proc.pid)) == []
+        assert leftover_segments(proc.pid) == []
+        assert wait_gone(session_members(proc.pid)) == []
 
 
-    def test_stop_with_half_a_result_in_the_pipe(self, tmp_path):
-        """A worker stopped while sending its result leaves half a message in the pool's result pipe (seen as
-        a hang of the Ctrl-C test, about one run in five). ``_stop_pool`` must still return. Run in a child
-        process: a hung manager thread would otherwise keep this test process from exiting."""
-        script = textwrap.dedent("""
-            import os, struct, time
-            from concurrent.futures import ProcessPoolExecutor
-            from forestlab.execution import pool as _pool
-            if __name__ == "__main__":
-                pool = ProcessPoolExecutor(2, mp_context=_pool.worker_context())
-                assert pool.submit(int, "7").result() == 7  # workers and manager thread are up
-                writer = pool._result_queue._writer
-                os.write(writer.fileno(), struct.pack("!i", 1000) + b"x" * 10)  # header of 1000 bytes, 10 sent
-                time.sleep(0.2)  # the manager thread is now waiting for the other 990
-                _pool.stop_pool(pool)
-                print("stopped", flush=True)
+    def test_worker_killed_half_way_through_a_reply(self, tmp_path):
+        """A worker that dies while sending its result leaves half a message in its reply pipe (with the
+        process pool we had before, the manager thread then waited for the rest forever: a hang of the Ctrl-C
+        test, about one run in five). The fit must fail at once, naming the block. Run in a child process, so
+        that a hang cannot keep this test process from exiting."""
+        module = textwrap.dedent("""
+            import os, signal
+            import numpy as np
+            import forestlab as fl
+            from forestlab.execution import channel, worker
+
+            class HalfReply(fl.CandidateSampler):
+                def draw(self, rng, nodes, features):
+                    if worker.pipes:  # in a worker: a header of 1000 bytes, 10 of them sent, then death
+                        os.write(worker.pipes["replies"].fileno(), channel.HEADER.pack(1000) + b"x" * 10)
+                        os.kill(os.getpid(), signal.SIGKILL)
+                    return np.ones((nodes, features), dtype=bool)
         """)
-        path = tmp_path / "half.py"
-        path.write_text(script)
-        env = dict(os.environ, PYTHONPATH=str(Path(fl.__file__).parents[1]))
-        with subprocess.Popen([sys.executable, str(path)], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
-                              text=True, env=env, start_new_session=True) as proc:
+        (tmp_path / "half.py").write_text(module)  # a module of its own: workers import HalfReply from it
+        script = textwrap.dedent("""
+            import forestlab as fl
+            from forestlab.synthetic import twonorm
+            from half import HalfReply
+            X, y = twonorm(200, dims=4, rng=1)
+            try:
+                fl.Forest(trees=8, rng=1, workers=2, sampler=HalfReply()).fit(X, y)
+            except fl.TreeGrowthError as error:
+                print(error, flush=True)
+        """)
+        env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(Path(fl.__file__).parents[1]), str(tmp_path)]))
+        with subprocess.Popen([sys.executable, "-c", script], stdout=subprocess.PIPE,
+                              stderr=subprocess.PIPE, text=True, env=env, start_new_session=True) as proc:
             try:
                 out, err = proc.communicate(timeout=60)
             finally:
                 if proc.poll() is None:
                     os.killpg(proc.pid, signal.SIGKILL)
                     proc.wait()
-        assert proc.returncode == 0 and out == "stopped\n", err
+        assert proc.returncode == 0 and "a worker process died unexpectedly" in out and "worker pid" in out, err
+        assert leftover_segments(proc.pid) == []
 
 
 class _Recorder(fl.CandidateSampler):
-    """All features; records the pid of every process that draws."""
+    """All features; records the pid (file name) and command line (content) of every process that draws."""
 
     def __init__(self, folder: str) -> None:
         self.folder = folder
 
     def draw(self, rng, nodes, features):
-        Path(self.folder, f"pid{os.getpid()}").touch()
+        Path(self.folder, f"pid{os.getpid()}").write_text(Path("/proc/self/cmdline").read_text())
         return np.ones((nodes, features), dtype=bool)
-
-
-def _session_members(sid: int) -> list[int]:
-    """Pids of live processes in session ``sid`` (the subprocess and anything it started)."""
-    out = []
-    for entry in Path("/proc").iterdir():
-        if entry.name.isdigit():
-            try:
-                stat = (entry / "stat").read_text().split(")")[-1].split()
-            except OSError:
-                continue
-            if int(stat[3]) == sid and stat[0] != "Z":
-                out.append(int(entry.name))
-    return out
 
 
 class TestDask:

@@ -5,7 +5,8 @@ to a module of the package; the test fails on a cycle, or on an import against t
 DEVELOPERS.md:
 
     engine <- intake <- analyses <- modelfile <- front door (Forest, load, cross_validated_error)
-    engine <- execution <- front door;   the shared leaves (warnings, version) under all of them;
+    engine <- execution <- front door;   modelfile <- export <- front door;   modelfile, plot <- report <- front door;
+    the shared leaves (warnings, version, paths) under all of them;
     plot reads the analyses' results; synthetic stands alone.
 """
 
@@ -19,9 +20,9 @@ import pytest
 import forestlab
 
 PACKAGE = Path(forestlab.__file__).parent
-LEAVES = {"forestlab._warnings", "forestlab._version"}
+LEAVES = {"forestlab._warnings", "forestlab._version", "forestlab._paths"}
 FRONT = {"forestlab", "forestlab._forest", "forestlab._members", "forestlab._fitting", "forestlab._load",
-         "forestlab._crossval"}
+         "forestlab._crossval", "forestlab._summary"}
 
 # part -> the parts it may import (its own included)
 ALLOWED = {
@@ -31,7 +32,9 @@ ALLOWED = {
     "execution": {"leaf", "engine", "execution"},
     "analyses": {"leaf", "engine", "intake", "analyses"},
     "modelfile": {"leaf", "engine", "intake", "analyses", "modelfile"},
-    "front": {"leaf", "engine", "intake", "analyses", "modelfile", "execution", "front"},
+    "export": {"leaf", "engine", "intake", "analyses", "modelfile", "export"},
+    "report": {"leaf", "engine", "intake", "analyses", "modelfile", "plot", "report"},
+    "front": {"leaf", "engine", "intake", "analyses", "modelfile", "execution", "export", "report", "front"},
     "plot": {"leaf", "engine", "analyses", "plot"},
     "synthetic": {"synthetic"},
 }

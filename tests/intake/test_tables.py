@@ -1,4 +1,4 @@
-"""Data frames, case weights, class weights and the class-balanced bootstrap."""
+"""Data frames, case weights, class priors and the class-balanced bootstrap."""
 
 from __future__ import annotations
 
@@ -173,36 +173,55 @@ class TestWeights:
         assert not forest.case_weights.flags.writeable and plain.case_weights is None
 
 
-class TestClassWeights:
+class TestClassPriors:
     def test_validation(self):
         X, y = _problem(n=20)
-        with pytest.raises(ValueError, match=r"`class_weights` must be None, 'balanced' or a dict"):
-            fl.Forest(class_weights="even")
-        with pytest.raises(TypeError, match=r"`class_weights` must be None, 'balanced' or a dict"):
-            fl.Forest(class_weights=[1, 2])
+        with pytest.raises(ValueError, match=r"`class_priors` must be None, 'equal' or a dict"):
+            fl.Forest(class_priors="balanced")
+        with pytest.raises(TypeError, match=r"`class_priors` must be None, 'equal' or a dict"):
+            fl.Forest(class_priors=[1, 2])
         with pytest.raises(ValueError, match=r"positive finite numbers; got -1 for 'ok'"):
-            fl.Forest(class_weights={"ok": -1})
-        with pytest.raises(ValueError, match=r"names 'maybe', which are not classes of `y`"):
-            fl.Forest(trees=2, class_weights={"maybe": 2.0}).fit(X, y)
-        with pytest.raises(ValueError, match=r"`balance` and `class_weights` are for classification"):
-            fl.Forest(trees=2, class_weights="balanced").fit(X, X[:, 0])
-        with pytest.raises(ValueError, match=r"`balance` and `class_weights` are for classification"):
+            fl.Forest(class_priors={"ok": -1})
+        with pytest.raises(ValueError, match=r"names 'maybe', which are not classes of `y` and gives no prior for "
+                                             r"'bad' \(the classes: \['bad', 'ok'\]\)"):
+            fl.Forest(trees=2, class_priors={"maybe": 0.5, "ok": 0.5}).fit(X, y)
+        with pytest.raises(ValueError, match=r"`class_priors` needs weight in every class, but the cases of 'bad'"):
+            fl.Forest(trees=2, class_priors="equal").fit(X, y, weights=(y == "ok").astype(float))
+        with pytest.raises(ValueError, match=r"`balance` and `class_priors` are for classification"):
+            fl.Forest(trees=2, class_priors="equal").fit(X, X[:, 0])
+        with pytest.raises(ValueError, match=r"`balance` and `class_priors` are for classification"):
             fl.Forest(balance="classes", task="regression")
 
-    def test_class_weights_are_case_weights(self):
+    @pytest.mark.parametrize("with_case_weights", [False, True])
+    def test_every_root_holds_the_classes_in_the_shares_of_the_priors(self, with_case_weights):
+        """The definition of priors (Breiman, Friedman, Olshen & Stone 1984, CART, chapter 4: node
+        probabilities p(k|t) proportional to pi_k N_k(t) / N_k): with every case drawn once, class k carries
+        the share pi_k of the root's weight, whatever the class sizes and case weights."""
         X, y = _problem(n=150, seed=5)
         y[:100] = "ok"
-        balanced = fl.Forest(trees=6, class_weights="balanced", rng=9).fit(X, y)
-        n_k = np.array([np.sum(y == "bad"), np.sum(y == "ok")])
-        # "balanced" = n / (K n_k) (common practice)
-        assert balanced.class_weights == pytest.approx({"bad": 150 / (2 * n_k[0]), "ok": 150 / (2 * n_k[1])})
-        w = np.where(y == "bad", 150 / (2 * n_k[0]), 150 / (2 * n_k[1]))
-        by_case = fl.Forest(trees=6, rng=9).fit(X, y, weights=w)
-        for a, b in zip(balanced._view.trees, by_case._view.trees):
+        w = np.random.default_rng(3).uniform(0.5, 2.0, size=y.size) if with_case_weights else None
+        for spec, expected in [({"bad": 2.0, "ok": 3.0}, {"bad": 0.4, "ok": 0.6}), ("equal", {"bad": 0.5, "ok": 0.5})]:
+            forest = fl.Forest(trees=3, class_priors=spec, replace=False, sample_size=1.0, rng=9).fit(X, y, w)
+            assert forest.class_priors == pytest.approx(expected)
+            grown = forest._data.weights   # case weight x class factor of every case
+            for label, prior in expected.items():
+                assert grown[y == label].sum() / grown.sum() == pytest.approx(prior, rel=1e-12)
+            np.testing.assert_allclose(forest.tree(0).cases[0], grown.sum(), rtol=1e-6)   # root weight
+        by_case = fl.Forest(trees=3, replace=False, sample_size=1.0, rng=9).fit(X, y, weights=grown)
+        for a, b in zip(forest._view.trees, by_case._view.trees):
             _trees_equal(a, b)
-        given = fl.Forest(trees=6, class_weights={"bad": 3}, rng=9).fit(X, y)
-        assert given.class_weights == {"bad": 3.0, "ok": 1.0}
-        _trees_equal(given.tree(0), fl.Forest(trees=6, rng=9).fit(X, y, weights=np.where(y == "bad", 3, 1)).tree(0))
+
+    def test_equal_priors_weigh_each_case_n_over_k_n_k(self):
+        """Without case weights equal priors give class k the factor n / (K n_k) (common practice), exactly."""
+        X, y = _problem(n=150, seed=5)
+        y[:100] = "ok"
+        n_k = np.array([np.sum(y == "bad"), np.sum(y == "ok")])
+        forest = fl.Forest(trees=6, class_priors="equal", rng=9).fit(X, y)
+        assert forest._grown.class_factors == {"bad": 150 / (2 * n_k[0]), "ok": 150 / (2 * n_k[1])}
+        by_case = fl.Forest(trees=6, rng=9).fit(X, y, weights=np.where(y == "bad", 150 / (2 * n_k[0]),
+                                                                       150 / (2 * n_k[1])))
+        for a, b in zip(forest._view.trees, by_case._view.trees):
+            _trees_equal(a, b)
 
 
 class TestBalance:

@@ -50,11 +50,12 @@ CASES = {
     "str": dict(labels="str", options={}),
     "int-weights": dict(labels="int", options={}, weights=True),
     "bool-balance": dict(labels="bool", options={"balance": "classes"}),
-    "float-class-weights": dict(labels="float", options={"task": "classification", "class_weights": {0.5: 3}}),
+    "float-class-priors": dict(labels="float", options={"task": "classification",
+                                                        "class_priors": {0.0: 0.25, 0.5: 0.75}}),
     "object-entropy-subspace": dict(labels="object", options={"splitter": "entropy",
                                                              "sampler": fl.TreeSubspace(2)}),
-    "str-balanced-weights-nonreplace": dict(labels="str", options={"class_weights": "balanced", "replace": False,
-                                                                   "sample_size": 0.6}, weights=True),
+    "str-equal-priors-weights-nonreplace": dict(labels="str", options={"class_priors": "equal", "replace": False,
+                                                                       "sample_size": 0.6}, weights=True),
     "regression": dict(labels=None, options={}),
     "regression-missing-values": dict(labels=None, options={"min_leaf": 2}, gaps=True),
     "str-missing-values": dict(labels="str", options={}, gaps=True),
@@ -104,7 +105,7 @@ def _assert_same_forest(a, b):
         assert b.case_weights is None
     else:
         np.testing.assert_array_equal(a.case_weights, b.case_weights)
-    assert a.class_weights == b.class_weights and a.balance == b.balance
+    assert a.class_priors == b.class_priors and a.balance == b.balance
     assert a.sampler == b.sampler and a.splitter == b.splitter
     assert a.min_leaf == b.min_leaf and a.sample_size == b.sample_size and a.replace == b.replace
     assert a.seed.entropy == b.seed.entropy and tuple(a.seed.spawn_key) == tuple(b.seed.spawn_key)
@@ -459,7 +460,7 @@ class TestLoaderFuzz:
     @settings(max_examples=150)
     @given(st.sampled_from(["trees", "nodes", "cases", "features", "feature_names", "classes", "settings",
                             "sampler", "splitter", "seed", "fingerprint", "has_data", "has_case_weights", "task",
-                            "class_weight_values"]),
+                            "class_priors", "class_factors"]),
            st.one_of(st.none(), st.booleans(), st.integers(-5, 10**12), st.floats(allow_nan=False),
                      st.text(max_size=5), st.lists(st.integers(-2, 5), max_size=4),
                      st.dictionaries(st.sampled_from(["dtype", "count", "object", "name", "m", "entropy"]),

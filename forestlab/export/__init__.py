@@ -1,0 +1,1 @@
+"""Export of a fitted forest to open formats: the ONNX tree-ensemble operator (:mod:`.onnx_model`)."""
