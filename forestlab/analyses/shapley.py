@@ -300,13 +300,14 @@ def _leaf_shares(S: NDArray[np.float64], G: NDArray[np.float64], nodes: NDArray[
     one output column ``v`` is in ``G`` already (see :attr:`TreeGame.step`), except at the root."""
     if not at.size:
         return
-    leaf_G = np.take(G, at, axis=1)                       # contiguous planes, then one transposing copy
     if outputs.shape[1] == 1:
         if root:
-            leaf_G *= outputs[nodes, 0][None, :, None]
-        S[nodes, 0] = leaf_G.transpose(1, 0, 2)
-    else:
-        S[nodes] = leaf_G.transpose(1, 0, 2)[:, None] * outputs[nodes][:, :, None, None]
+            S[nodes, 0] = G[:, at].transpose(1, 0, 2) * outputs[nodes, 0][:, None, None]
+            return
+        for t in range(G.shape[0]):                       # plane by plane: rows copied whole, no transposing view
+            S[nodes, 0, t] = G[t, at]
+        return
+    S[nodes] = np.take(G, at, axis=1).transpose(1, 0, 2)[:, None] * outputs[nodes][:, :, None, None]
 
 
 def _up(game: TreeGame, S: NDArray[np.float64], before: NDArray[np.float64], now: NDArray[np.float64],
