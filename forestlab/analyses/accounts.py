@@ -81,7 +81,8 @@ class CaseAccount:
     def __str__(self) -> str:
         order = self.order[:self.top]
         rest = np.setdiff1d(np.arange(self.shares.size), order)
-        lines = [f"case {self.case}: {self.output} {self.answer:.4g}, against {self.baseline:.4g} for an average "
+        answer = 0.0 if abs(self.answer) < 1e-12 else self.answer      # a vote share of 0 less rounding
+        lines = [f"case {self.case}: {self.output} {answer:.4g}, against {self.baseline:.4g} for an average "
                  "training case"]
         width = max([7] + [len(self.names[j]) for j in order])
         value_width = max([5] + [len(self.shown[j]) for j in order])
