@@ -28,7 +28,8 @@ __all__ = ["TreeDependences", "leaf_passes", "tree_dependences"]
 TreeDependences = tuple[NDArray, dict[int, NDArray], dict[tuple[int, int], NDArray], dict[int, NDArray]]
 
 
-def leaf_passes(tree: Tree, sample: NDArray[np.float64], missing: bool):
+def leaf_passes(tree: Tree, sample: NDArray[np.float64],
+                missing: bool) -> tuple[NDArray[np.bool_], NDArray[np.int32], NDArray[np.intp]]:
     """``A`` as (leaves, p, N) booleans, the number of features every case fails at every leaf (leaves, N),
     and the leaves' node indices: one pass down the tree level by level."""
     N, p = sample.shape
