@@ -89,8 +89,8 @@ def explain_most_doubtful(forest: fl.Forest, doubtful: fl.DoubtfulCases, batches
         print(reasons.describe(i))
         name, value, pull = reasons.reasons(i)[0]
         print(f"  first check: the {name} reading ({value}) and the grading record of batch {reasons.case[i]}")
-    print("caution: these are the model's reasons, not findings; validate on your own data, and let them point")
-    print("a second inspection, not replace the lab's judgement or the rules that apply at your plant")
+    print("caution: these are the model's reasons, not findings; validate on your own data, and use them to direct")
+    print("a second inspection, not to replace the lab's judgement or the rules that apply at your plant")
 
 
 if __name__ == "__main__":
