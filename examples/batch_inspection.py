@@ -76,7 +76,22 @@ def main() -> None:
     print(f"new batches with a split vote (30-70% 'rework'), worth a second inspection: {close.size}")
     for i in close[:8]:
         print(f"  batch {i:4d}: {share[i]:.0%} of trees say rework; lab graded {str(new_grade[i])!r}")
+    explain_most_doubtful(forest, doubtful)
     how_sure(forest, misgraded, new_X, new_grade)
+
+
+def explain_most_doubtful(forest: fl.Forest, doubtful: fl.DoubtfulCases, batches: int = 2) -> None:
+    """Why the forest doubts the grade of the most doubtful past batches, in words."""
+    print(f"\nwhy the forest doubts the grades of the {batches} most doubtful batches")
+    print("(each batch is explained only by the trees that never saw it; a + number is how much a measurement")
+    print(" widens those trees' vote margin against the recorded grade, a - number how much it narrows it)")
+    reasons = forest.doubt_reasons(doubtful.case[:batches])
+    for i in range(len(reasons)):
+        print(reasons.describe(i))
+        name, value, pull = reasons.reasons(i)[0]
+        print(f"  first check: the {name} reading ({value}) and the grading record of batch {reasons.case[i]}")
+    print("caution: these are the model's reasons, not findings; validate on your own data, and use them to direct")
+    print("a second inspection, not to replace the lab's judgement or the rules that apply at your plant")
 
 
 # Level of the prediction sets, false discovery rate of the doubtful grades, and how many past grades a second

@@ -12,8 +12,13 @@ from ._warnings import NeverOutOfBagWarning as NeverOutOfBagWarning
 from ._warnings import OverlapWarning as OverlapWarning
 from ._warnings import SingleClassWarning as SingleClassWarning
 from ._warnings import SmallTrustedSetWarning as SmallTrustedSetWarning
+from .analyses.accounts import CaseAccount as CaseAccount
+from .analyses.accounts import CaseAttributions as CaseAttributions
+from .analyses.accounts import OverallWeight as OverallWeight
 from .analyses.dependence import Dependence as Dependence
+from .analyses.doubt import DoubtReasons as DoubtReasons
 from .analyses.importance import Importance as Importance
+from .analyses.interaction import InteractionStrength as InteractionStrength
 from .analyses.proximity import ProximityMap as ProximityMap
 from .analyses.proximity import classical_scaling as classical_scaling
 from .analyses.results import CrossValidatedError as CrossValidatedError
@@ -41,9 +46,12 @@ __all__ = [
     "CandidatesCappedWarning",
     "CandidateSampler",
     "CartSplitter",
+    "CaseAccount",
+    "CaseAttributions",
     "ConditionalQuantiles",
     "CrossValidatedError",
     "Dependence",
+    "DoubtReasons",
     "DoubtfulCases",
     "EntropySplitter",
     "FewTreesWarning",
@@ -52,9 +60,11 @@ __all__ = [
     "GiniSplitter",
     "Importance",
     "IncompleteForestWarning",
+    "InteractionStrength",
     "ModelFileError",
     "NeverOutOfBagWarning",
     "OutOfBag",
+    "OverallWeight",
     "OverlapWarning",
     "PredictionIntervals",
     "PredictionSets",

@@ -4,8 +4,11 @@ view (or its stored form); each is documented where it is implemented."""
 from __future__ import annotations
 
 from ._members import hand_off
+from .analyses import attributions as _attributions
 from .analyses import dependence as _dependence
+from .analyses import doubt as _doubt
 from .analyses import importance as _importance
+from .analyses import interaction as _interaction
 from .analyses import proximity as _proximity
 from .analyses.uncertainty import intervals as _intervals
 from .analyses.uncertainty import quantile as _quantile
@@ -26,6 +29,10 @@ class HandOffs:
     proximity = hand_off(_proximity.proximity)
     outlyingness = hand_off(_proximity.outlyingness)
     proximity_map = hand_off(_proximity.proximity_map)
+    # why one case came out as it did, which predictors act together, what speaks for a doubtful label
+    attributions = hand_off(_attributions.attributions)
+    interaction = hand_off(_interaction.interaction)
+    doubt_reasons = hand_off(_doubt.doubt_reasons)
     # how sure each prediction is
     variance = hand_off(_variance.variance)
     intervals = hand_off(_intervals.intervals, with_oob=True)

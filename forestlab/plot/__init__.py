@@ -13,6 +13,9 @@ function               draws
 `proximity_map`        the cases on the proximity map, coloured by class, outliers ringed
 `intervals`            prediction intervals along one feature or against the prediction
 `coverage`             observed against nominal coverage of intervals or prediction sets
+`case_ledger`          one case's attributions as bars from zero, from the baseline to its answer
+`attribution_cloud`    every case's attribution of one feature against its value, coloured by another
+`interaction_grid`     pairwise H-statistics as a numbered lower-triangle grid
 =====================  ==============================================================================
 """
 
@@ -28,7 +31,11 @@ from ._analyses import importance as importance
 from ._analyses import margins as margins
 from ._analyses import partial_dependence as partial_dependence
 from ._analyses import proximity_map as proximity_map
+from ._reasons import attribution_cloud as attribution_cloud
+from ._reasons import case_ledger as case_ledger
+from ._reasons import interaction_grid as interaction_grid
 from ._uncertainty import coverage as coverage
 from ._uncertainty import intervals as intervals
 
-__all__ = ["coverage", "error_curve", "importance", "intervals", "margins", "partial_dependence", "proximity_map"]
+__all__ = ["attribution_cloud", "case_ledger", "coverage", "error_curve", "importance", "interaction_grid",
+           "intervals", "margins", "partial_dependence", "proximity_map"]

@@ -62,6 +62,19 @@ class TestBatchInspectionDemo:
         found = int(re.search(r"^(\d+) of these 10 were deliberately misgraded", out, re.M).group(1))
         assert found >= 7          # measured 10 of 10
 
+    def test_reasons_of_the_two_most_doubtful_batches(self, demo_run):
+        # The block explains the first two rows of the doubtful table by their out-of-bag attributions.
+        out = demo_run.stdout
+        block = out[out.index("why the forest doubts the grades of the 2 most doubtful batches"):]
+        table = re.findall(r"^ *(\d+)  (pass|rework) +(pass|rework) +(-\d\.\d{3}) +(\d+)$", out, re.M)
+        cases = re.findall(r"^case (\d+): recorded '(pass|rework)', but (\d+)% of its (\d+) out-of-bag trees vote "
+                           r"'(pass|rework)' \((\d+)% for the record\)$", block, re.M)
+        assert [c[0] for c in cases] == [row[0] for row in table[:2]]
+        assert all(recorded != voted and int(share) > 50 for _, recorded, share, _, voted, _ in cases)
+        against = re.findall(r"^  speaks against the record: (\w+) = \S+ \(\+\d\.\d{3}\)", block, re.M)
+        assert len(against) == 2 and all(name in block for name in against)
+        assert re.search(r"^caution: these are the model's reasons, not findings; validate on your own data", block,
+                         re.M)
 
 @pytest.mark.slow
 class TestHowSureBlock:
