@@ -4,6 +4,7 @@ one-line hand-offs of the fitted view, and the plain ``Forest(...)`` repr."""
 from __future__ import annotations
 
 import functools
+import inspect
 from collections.abc import Callable
 from typing import Any, Concatenate, ParamSpec, TypeVar
 
@@ -33,6 +34,10 @@ def hand_off(analysis: Callable[Concatenate[FittedForest, P], R], of: str = "_fi
         if with_oob:
             return analysis(getattr(self, of)(), *args, oob=self.oob, **kwargs)
         return analysis(getattr(self, of)(), *args, **kwargs)
+    shown = inspect.signature(analysis)  # as a method: ``self`` for the view, ``oob`` supplied by the Forest
+    rest = [p for p in list(shown.parameters.values())[1:] if not (with_oob and p.name == "oob")]
+    method.__signature__ = shown.replace(parameters=[inspect.Parameter("self", inspect.Parameter.POSITIONAL_ONLY),
+                                                     *rest])
     return method
 
 
