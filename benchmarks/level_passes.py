@@ -48,7 +48,7 @@ REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO))
 
 import forestlab as fl  # noqa: E402
-from forestlab.engine import cuts, fast_search, grow, running, search, segments  # noqa: E402, F401
+from forestlab.engine import fast_search, grow, search, segments  # noqa: E402
 
 sys.path.insert(0, str(REPO / "benchmarks"))
 from run import PLANS, forestlab_target, machine, make_data  # noqa: E402
