@@ -413,7 +413,6 @@ def table(results, mode, yardstick_note) -> str:
     return "\n".join(lines)
 
 
-
 def _per_tree_rows(results, mode):
     pt, spec = results["per_tree"], PLANS[mode]["per_tree"]
     return [(f"per_tree, {spec['rows']} rows x {spec['trees']} trees", f"{pt['ns_per_row_tree']:.0f} ns", "-",
@@ -457,6 +456,7 @@ def _workers_rows(results, mode):
 #: The table's rows after the fits, in order, for the benches that ran (``--only``)
 _ROWS = {"per_tree": _per_tree_rows, "oob": _oob_rows, "memory": _memory_rows, "growth": _growth_rows,
          "workers": _workers_rows}
+
 
 def results_markdown(results) -> str:
     """The table with the machine it was measured on, as benchmarks/RESULTS.md has it."""
