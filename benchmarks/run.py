@@ -77,6 +77,7 @@ PLANS = {
         "memory": {"n": 100_000, "p": 50, "trees": 100},
         "growth": {"small": 10_000, "large": 100_000, "p": 10, "trees": 100},
         "workers": {"n": 10_000, "p": 10, "trees": 200},
+        "million": "full",  # benchmarks/million_rows.py: its plan of this name (issue 17)
     },
     "quick": {
         "fits": [
@@ -89,6 +90,7 @@ PLANS = {
         "memory": {"n": 20_000, "p": 50, "trees": 10},
         "growth": {"small": 2_000, "large": 20_000, "p": 10, "trees": 20},
         "workers": {"n": 10_000, "p": 10, "trees": 40},
+        "million": "quick",
     },
 }
 
@@ -434,6 +436,9 @@ def table(results, mode, yardstick_note) -> str:
     rows.append((f"workers=2 vs 1, n={spec['n']} {spec['trees']} trees (speed-up)",
                  f"{statistics.median(w['workers1_s']):.2f} -> {statistics.median(w['workers2_s']):.2f} s", "-",
                  f"{w['speedup']:.2f}x", ">= 1.7x", "1.9x"))
+    if "million" in results:
+        import million_rows
+        rows += million_rows.table_rows(results["million"])
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
     lines = ["| " + " | ".join(c.ljust(wd) for c, wd in zip(r, widths)) + " |" for r in rows]
     lines.insert(1, "|" + "|".join("-" * (wd + 2) for wd in widths) + "|")
@@ -499,6 +504,8 @@ def main() -> None:
         results["memory"] = bench_memory(plan["memory"], log)
         results["growth"] = bench_growth(plan["growth"], args.repeats, log)
         results["workers"] = bench_workers(plan["workers"], args.repeats, log)
+        import million_rows  # the million-row rows (issue 17), in a module of their own
+        results["million"] = million_rows.bench(million_rows.PLAN[plan["million"]], yardstick, args.repeats, log)
     finally:
         yardstick.close()
     results["table"] = table(results, mode, yardstick.note)
