@@ -195,8 +195,14 @@ def _pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_b
     m = int(ncand[0])
     if m and np.all(ncand == m):
         # slot-major (m, N): a handful of whole-array calls for all slots
-        key, ranks = _slot_ranks(data, items, cand_feat, m, work)
-        np.left_shift(ranks, item_bits, out=key, dtype=np.int64)
+        key = scratch(work, "key", m * N, np.int64).reshape(m, N)
+        rank = scratch(work, "slot_rank", N, data.dense.dtype)  # one slot at a time: N ranks, not m * N
+        feature_base = cand_feat.reshape(-1, m).T * n
+        for j in range(m):
+            np.take(feature_base[j], items.node, out=key[j], mode="clip")
+            key[j] += items.row
+            np.take(dense, key[j], out=rank, mode="clip")
+            np.left_shift(rank, item_bits, out=key[j], dtype=np.int64)
         base = np.take((first << db) << item_bits, items.node, out=scratch(work, "node_base", N, np.int64),
                        mode="clip")
         if item_bits:
