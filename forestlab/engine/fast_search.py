@@ -33,6 +33,7 @@ from numpy.typing import NDArray
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts, record_sides, segment_totals
 from .presort import TrainingData
 from .running import running_sums
+from .segments import gather
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from .workspace import Workspace, scratch
 
@@ -69,7 +70,7 @@ class FastPath:
                 placed[items.wi] = column
                 column = placed
         index = seg.wi if seg.item is None else seg.item
-        elem = np.take(column, index, out=scratch(work, "elem", index.size, column.dtype), mode="clip")
+        elem = gather(column, index, scratch(work, "elem", index.size, column.dtype))
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)
         return squared_error_best_splits(seg, min_leaf, lightest, elem, parent, out, tie, work)
