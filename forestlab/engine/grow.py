@@ -182,9 +182,14 @@ def _items_of(items: Items, keep: NDArray[np.bool_]) -> Items:
 
 def _narrow(items: Items, keep: NDArray[np.bool_]) -> None:
     """:func:`_items_of` in place: ``items`` holds afterwards only the items of the nodes where ``keep`` is
-    True, numbered among themselves (the arrays it held are released)."""
-    subset = _items_of(items, keep)
-    items.row, items.node, items.wi = subset.row, subset.node, subset.wi
+    True, numbered among themselves (the arrays it held are released one by one)."""
+    kept = np.flatnonzero(np.take(keep, items.node, mode="clip"))
+    one = items.wi is items.row  # (one tree: the same array)
+    items.row = np.take(items.row, kept, mode="clip")  # one array at a time, each released once replaced
+    items.wi = items.row if one else np.take(items.wi, kept, mode="clip")
+    items.node = np.take(items.node, kept, mode="clip")
+    del kept
+    items.node = np.take(np.cumsum(keep) - 1, items.node, mode="clip")
 
 
 def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.bool_]:
