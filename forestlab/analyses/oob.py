@@ -23,7 +23,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._warnings import NeverOutOfBagWarning
-from ..engine.tree import Tree, leaf_index, stacked_leaf_values
+from ..engine.tree import Tree, has_missing, leaf_index, stacked_leaf_values
 from ..intake.validation import Target
 from .results import OutOfBag
 from .view import FittedForest
@@ -43,7 +43,7 @@ class _Entries:
     def __init__(self, trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float64],
                  classes: int | None = None) -> None:
         self.trees, self.inbag, self.X = trees, inbag, X
-        self.numeric = not np.isnan(X).any() and all(tree.category_left.shape[1] == 0 for tree in trees)
+        self.numeric = not has_missing(X) and all(tree.category_left.shape[1] == 0 for tree in trees)
         self.kind = np.float64 if classes is None else np.min_scalar_type(max(classes - 1, 0))
         self.sizes = np.array([inbag.shape[1] - np.count_nonzero(counts) for counts in inbag], dtype=np.int64)
         keep = int(self.sizes.sum()) * np.dtype(self.kind).itemsize <= _KEEP_BYTES
