@@ -47,11 +47,13 @@ PLAN = {  # (label, data, n, p, m, trees, min_leaf) per fit row; the memory rows
 }
 
 
-def _reset_peak() -> int:
-    """Give freed heap memory back to the system (glibc), reset the peak resident set to the current one, and
-    return the current resident set in bytes."""
+def _reset_peak(trim: bool = True) -> int:
+    """Give freed heap memory back to the system (glibc; not before the fit, as run.py's memory row), reset
+    the peak resident set to the current one, and return the current resident set in bytes."""
     gc.collect()
     try:
+        if not trim:
+            raise OSError
         import ctypes
         ctypes.CDLL("libc.so.6").malloc_trim(0)
     except (OSError, AttributeError):  # not glibc: freed memory kept by the allocator counts as before
@@ -78,7 +80,7 @@ def memory_child(name: str, n: int, p: int, trees: int) -> dict:
     del data
     gc.collect()
     min_leaf = 1 if task == "classification" else 5
-    before = _reset_peak()
+    before = _reset_peak(trim=False)
     start = time.perf_counter()
     forest = fl.Forest(trees=trees, sampler=3, min_leaf=min_leaf, task=task, rng=1).fit(X, y)
     fit_s = time.perf_counter() - start
