@@ -82,6 +82,7 @@ def grow_batch(data: TrainingData, rules: GrowthRules, seeds: list[np.random.See
     row = rows[0] if len(rows) == 1 else np.concatenate(rows)  # (one tree: no copy of its rows)
     del rows, batch.rows
     items = Items(row, slot, row if len(gens) == 1 else slot * n + row)
+    del row, slot  # (held by the items only, so a level can release them)
     node_tree = np.arange(len(gens))
     records: list[dict[str, NDArray]] = []
     depth, sides = 0, None
