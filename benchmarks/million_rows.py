@@ -51,16 +51,20 @@ def _reset_peak(trim: bool = True) -> int:
     """Give freed heap memory back to the system (glibc; not before the fit, as run.py's memory row), reset
     the peak resident set to the current one, and return the current resident set in bytes."""
     gc.collect()
-    try:
-        if not trim:
-            raise OSError
-        import ctypes
-        ctypes.CDLL("libc.so.6").malloc_trim(0)
-    except (OSError, AttributeError):  # not glibc: freed memory kept by the allocator counts as before
-        pass
+    if trim:
+        _trim_heap()
     with open("/proc/self/clear_refs", "w") as f:
         f.write("5")
     return R._status_kib("VmRSS") * 1024
+
+
+def _trim_heap() -> None:
+    """glibc's ``malloc_trim(0)``; elsewhere nothing (freed memory the allocator keeps then counts as before)."""
+    try:
+        import ctypes
+        ctypes.CDLL("libc.so.6").malloc_trim(0)
+    except (OSError, AttributeError):
+        pass
 
 
 def _peak() -> int:
