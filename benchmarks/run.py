@@ -77,6 +77,7 @@ PLANS = {
         "memory": {"n": 100_000, "p": 50, "trees": 100},
         "growth": {"small": 10_000, "large": 100_000, "p": 10, "trees": 100},
         "workers": {"n": 10_000, "p": 10, "trees": 200},
+        "million": "full",  # benchmarks/million_rows.py: its plan of this name (issue 17)
     },
     "quick": {
         "fits": [
@@ -89,6 +90,7 @@ PLANS = {
         "memory": {"n": 20_000, "p": 50, "trees": 10},
         "growth": {"small": 2_000, "large": 20_000, "p": 10, "trees": 20},
         "workers": {"n": 10_000, "p": 10, "trees": 40},
+        "million": "quick",
     },
 }
 
@@ -454,8 +456,15 @@ def _workers_rows(results, mode):
 
 
 #: The table's rows after the fits, in order, for the benches that ran (``--only``)
+def _million_rows():
+    """The million-row rows (issue 17), in a module of their own beside this script."""
+    import million_rows
+
+    return million_rows
+
+
 _ROWS = {"per_tree": _per_tree_rows, "oob": _oob_rows, "memory": _memory_rows, "growth": _growth_rows,
-         "workers": _workers_rows}
+         "workers": _workers_rows, "million": lambda results, mode: _million_rows().table_rows(results["million"])}
 
 
 def results_markdown(results) -> str:
@@ -483,7 +492,7 @@ def main() -> None:
     ap.add_argument("--json", help="also write the results to this file")
     ap.add_argument("--results", help="also write the table and machine as Markdown to this file")
     ap.add_argument("--only", help="comma-separated rows to run: fits (or words of a fit's label, e.g. "
-                    "friedman1), per_tree, oob, memory, growth, workers; default every row")
+                    "friedman1), per_tree, oob, memory, growth, workers, million; default every row")
     ap.add_argument("--memory-child", help=argparse.SUPPRESS)
     ap.add_argument("--fit-child", help=argparse.SUPPRESS)
     args = ap.parse_args()
@@ -513,7 +522,9 @@ def main() -> None:
                "oob": lambda: bench_oob(plan["oob"], args.repeats, log),
                "memory": lambda: bench_memory(plan["memory"], log),
                "growth": lambda: bench_growth(plan["growth"], args.repeats, log),
-               "workers": lambda: bench_workers(plan["workers"], args.repeats, log)}
+               "workers": lambda: bench_workers(plan["workers"], args.repeats, log),
+               "million": lambda: _million_rows().bench(_million_rows().PLAN[plan["million"]], yardstick,
+                                                         args.repeats, log)}
     try:
         results["fits"] = [bench_fit(row, yardstick, args.repeats, log) for row in plan["fits"]
                            if only is None or "fits" in only or any(w in row[0] for w in only)]

@@ -14,8 +14,9 @@ from numpy.typing import ArrayLike, NDArray
 
 from ._fitting import grow, more_of_the_same, prepare, regrow
 from ._handoffs import HandOffs
-from ._members import fitted_attribute, setting, settings_repr, vote_shares
+from ._members import fitted_attribute, setting, settings_repr
 from ._summary import fitted_summary
+from .analyses.cases import forest_mean, forest_votes
 from .analyses.oob import known_out_of_bag, out_of_bag
 from .analyses.results import OutOfBag
 from .analyses.view import FittedForest
@@ -288,13 +289,15 @@ class Forest(HandOffs):
         """Share of trees voting for each class, shape ``(n, K)`` in the order of :attr:`classes`."""
         if self._fitted_view().task != "classification":
             raise TypeError("`votes` is for classification forests; this forest does regression")
-        return vote_shares(self.per_tree(X), self.classes.size)
+        view = self._fitted_view()
+        return forest_votes(view.trees, view.coded(X), self.classes.size)
 
     def predict(self, X: ArrayLike) -> NDArray:
         """Majority vote (ties to the lowest class index) or the mean of the trees' predictions."""
         if self._fitted_view().task == "classification":
             return self.classes[np.argmax(self.votes(X), axis=1)]
-        return self.per_tree(X).mean(axis=0)
+        view = self._fitted_view()
+        return forest_mean(view.trees, view.coded(X))
 
     # ----------------------------------------------------------------------------------------- files
     def save(self, path: str | PathLike, *, include_data: bool = False) -> None:

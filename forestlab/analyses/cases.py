@@ -8,14 +8,18 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ..engine.tree import leaf_index
+from ..engine.tree import leaf_index, tree_values
 from ..intake.validation import check_y
 from .view import FittedForest
 
-__all__ = ["ROW_BUDGET", "analysis_X", "analysis_y", "leaves", "mean_prediction", "row_blocks", "vote_shares"]
+__all__ = ["PREDICTION_BUDGET", "ROW_BUDGET", "analysis_X", "analysis_y", "forest_mean", "forest_votes", "leaves",
+           "mean_prediction", "row_blocks", "vote_shares"]
 
 # Largest number of float64 elements a stacked block of predictor copies may hold (about 32 MB).
 ROW_BUDGET = 4_000_000
+
+# Largest (trees, rows) table of per-tree predictions ``forest_votes`` / ``forest_mean`` hold at once (32 MB).
+PREDICTION_BUDGET = 4_000_000
 
 
 def analysis_X(forest: FittedForest, X: Any) -> tuple[NDArray[np.float64], bool]:
@@ -72,3 +76,22 @@ def vote_shares(per_tree: NDArray[np.int64], classes: int) -> NDArray[np.float64
     flat = (np.arange(n) * classes)[None, :] + per_tree
     counts = np.bincount(flat.ravel(), minlength=n * classes).reshape(n, classes)
     return counts / trees
+
+
+def forest_votes(trees, X: NDArray[np.float64], classes: int) -> NDArray[np.float64]:
+    """:func:`vote_shares` of every tree's class index for every row of ``X`` (n, classes), a block of rows at a
+    time, so that at most ``PREDICTION_BUDGET`` per-tree predictions are held (each row's shares are its own
+    counts over the trees, the same whatever the block)."""
+    out = np.empty((X.shape[0], classes))
+    for rows in row_blocks(X.shape[0], len(trees), PREDICTION_BUDGET):
+        out[rows] = vote_shares(tree_values(trees, X[rows], np.int64), classes)
+    return out
+
+
+def forest_mean(trees, X: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Mean over the trees of their values for every row of ``X``, a block of rows at a time (as
+    :func:`forest_votes`; the mean of a (trees, rows) table sums each column in tree order, whatever its rows)."""
+    out = np.empty(X.shape[0])
+    for rows in row_blocks(X.shape[0], len(trees), PREDICTION_BUDGET):
+        out[rows] = tree_values(trees, X[rows], np.float64).mean(axis=0)
+    return out

@@ -18,13 +18,12 @@ index on ties):
 from __future__ import annotations
 
 import warnings
-from dataclasses import dataclass, replace
 
 import numpy as np
 from numpy.typing import NDArray
 
 from .._warnings import NeverOutOfBagWarning
-from ..engine.tree import Tree, leaf_index, stacked_leaf_values
+from ..engine.tree import Tree, has_missing, leaf_index, stacked_leaf_values
 from ..intake.validation import Target
 from .results import OutOfBag
 from .view import FittedForest
@@ -32,43 +31,59 @@ from .view import FittedForest
 __all__ = ["known_out_of_bag", "out_of_bag"]
 
 
-@dataclass(frozen=True)
 class _Entries:
-    """Every OOB (tree, case) pair, grouped by tree in tree order, with the tree's prediction."""
+    """Every OOB (tree, case) pair with the tree's prediction, handed out tree by tree in tree order.
 
-    row: NDArray[np.intp]     # (E,) the case
-    value: NDArray            # (E,) the tree's class index (int64) or value (float64)
-    start: NDArray[np.intp]   # (trees + 1,) tree b owns entries start[b]:start[b + 1]
+    The pairs are made a block of trees at a time (about ``_PAIRS`` pairs pushed down together), so memory
+    stays bounded whatever the number of trees and cases: a tree's OOB rows are found again from its in-bag
+    counts, and its predictions are kept (as the narrowest type that holds them) only while all of them take
+    at most ``_KEEP_BYTES``; beyond that a second pass over the trees predicts them again.
+    """
 
-    def of_tree(self, b: int) -> tuple[NDArray[np.intp], NDArray]:
-        s, e = self.start[b], self.start[b + 1]
-        return self.row[s:e], self.value[s:e]
+    def __init__(self, trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float64],
+                 classes: int | None = None) -> None:
+        self.trees, self.inbag, self.X = trees, inbag, X
+        self.numeric = not has_missing(X) and all(tree.category_left.shape[1] == 0 for tree in trees)
+        self.kind = np.float64 if classes is None else np.min_scalar_type(max(classes - 1, 0))
+        self.sizes = np.array([inbag.shape[1] - np.count_nonzero(counts) for counts in inbag], dtype=np.int64)
+        keep = int(self.sizes.sum()) * np.dtype(self.kind).itemsize <= _KEEP_BYTES
+        self.kept: list[NDArray] | None = [] if keep else None
 
-    @property
-    def tree(self) -> NDArray[np.intp]:
-        return np.repeat(np.arange(self.start.size - 1), np.diff(self.start))
+    def each(self):
+        """``(b, rows, values)`` for every tree ``b`` in order: its OOB rows (increasing) and its predictions
+        there (class indices as ``intp``, or values)."""
+        kept, self.kept = self.kept, None
+        if kept is not None and len(kept) == len(self.trees):  # second and later passes: from memory
+            for b, values in enumerate(kept):
+                yield b, self.rows(b), values.astype(np.intp) if self.kind != np.float64 else values
+            self.kept = kept
+            return
+        for b0, b1 in self._blocks():
+            rows = [self.rows(b) for b in range(b0, b1)]
+            values = self._predict(b0, b1, rows)
+            for b, r, v in zip(range(b0, b1), rows, np.split(values, np.cumsum([r.size for r in rows])[:-1])):
+                if kept is not None:
+                    kept.append(v.astype(self.kind))
+                yield b, r, v.astype(np.intp) if self.kind != np.float64 else v
+        self.kept = kept
 
+    def rows(self, b: int) -> NDArray[np.intp]:
+        return np.flatnonzero(self.inbag[b] == 0)
 
-def oob_entries(trees: list[Tree], inbag: NDArray[np.uint8], X: NDArray[np.float64]) -> _Entries:
-    """Each tree's prediction for its own OOB rows only: numeric trees in blocks of about ``_PAIRS`` (tree,
-    row) pairs pushed down together, others one level-wise pass per tree."""
-    tree_of, row = np.nonzero(inbag == 0)
-    start = np.searchsorted(tree_of, np.arange(len(trees) + 1))
-    value = np.empty(row.size)
-    if not np.isnan(X).any() and all(tree.category_left.shape[1] == 0 for tree in trees):
-        per_block = max(1, _PAIRS // max(1, X.shape[0]))
-        for b0 in range(0, len(trees), per_block):
-            b1 = min(b0 + per_block, len(trees))
-            s, e = start[b0], start[b1]
-            value[s:e] = stacked_leaf_values(trees[b0:b1], tree_of[s:e] - b0, row[s:e], X)
-        return _Entries(row=row, value=value, start=start)
-    for b, tree in enumerate(trees):
-        s, e = start[b], start[b + 1]
-        value[s:e] = tree.value[leaf_index(tree, X[row[s:e]])]
-    return _Entries(row=row, value=value, start=start)
+    def _blocks(self):
+        per_block = max(1, _PAIRS // max(1, self.X.shape[0])) if self.numeric else 1
+        for b0 in range(0, len(self.trees), per_block):
+            yield b0, min(b0 + per_block, len(self.trees))
+
+    def _predict(self, b0: int, b1: int, rows: list[NDArray[np.intp]]) -> NDArray[np.float64]:
+        if not self.numeric:  # one level-wise pass per tree
+            return self.trees[b0].value[leaf_index(self.trees[b0], self.X[rows[0]])]
+        tree_of = np.repeat(np.arange(b1 - b0), [r.size for r in rows])
+        return stacked_leaf_values(self.trees[b0:b1], tree_of, np.concatenate(rows), self.X)
 
 
 _PAIRS = 1 << 19  # (tree, row) pairs pushed down one tree block together (a few MB of working arrays)
+_KEEP_BYTES = 1 << 26  # predictions kept for the second pass (64 MiB), else predicted again
 
 
 def out_of_bag(forest: FittedForest, stacklevel: int = 1) -> OutOfBag:
@@ -86,8 +101,8 @@ def out_of_bag(forest: FittedForest, stacklevel: int = 1) -> OutOfBag:
     """
     X, target, weights = forest.training_X(), forest.target, forest.case_weights
     trees, inbag = list(forest.trees), forest.inbag
-    entries = oob_entries(trees, inbag, X)
     n = X.shape[0]
+    entries = _Entries(trees, inbag, X, None if target.task != "classification" else target.classes.size)
     if target.task == "classification":
         result = _classification(entries, target, n, weights)
     else:
@@ -117,14 +132,13 @@ def known_out_of_bag(forest: FittedForest, cached: OutOfBag | None) -> OutOfBag 
 # ------------------------------------------------------------------------------------- classification
 def _class_pass(entries: _Entries, y: NDArray[np.int64], n: int, K: int, weights):
     """Vote counts (n, K) and the (weighted) error curve, accumulated tree by tree."""
-    trees = entries.start.size - 1
+    trees = len(entries.trees)
     counts = np.zeros((n, K), dtype=np.int64)
     wrong = np.zeros(n, dtype=bool)
     seen = np.zeros(n, dtype=bool)
     n_wrong = n_seen = 0
     curve = np.full(trees, np.nan)
-    for b in range(trees):
-        rows, cls = entries.of_tree(b)
+    for b, rows, cls in entries.each():
         counts[rows, cls] += 1
         now_wrong = np.argmax(counts[rows], axis=1) != y[rows]
         if weights is None:
@@ -144,7 +158,6 @@ def _class_pass(entries: _Entries, y: NDArray[np.int64], n: int, K: int, weights
 def _classification(entries: _Entries, target: Target, n: int, weights) -> OutOfBag:
     y, classes = target.values, target.classes
     K = classes.size
-    entries = replace(entries, value=entries.value.astype(np.intp))
     counts, curve = _class_pass(entries, y, n, K, weights)
     coverage = counts.sum(axis=1)
     covered = coverage > 0
@@ -187,12 +200,11 @@ def _strength_correlation(entries: _Entries, y: NDArray[np.int64], j_hat: NDArra
         return float("nan"), float("nan"), float("nan")
     s = float(np.mean(mr))
     var_mr = float(np.var(mr))
-    tree = entries.tree
-    trees = entries.start.size - 1
-    size = np.bincount(tree, minlength=trees)
-    cls = entries.value
-    p1 = np.bincount(tree, weights=cls == y[entries.row], minlength=trees)
-    p2 = np.bincount(tree, weights=cls == j_hat[entries.row], minlength=trees)
+    trees = len(entries.trees)
+    size, p1, p2 = entries.sizes, np.zeros(trees), np.zeros(trees)
+    for b, rows, cls in entries.each():  # (counts of whole numbers: exact in any order)
+        p1[b] = np.count_nonzero(cls == y[rows])
+        p2[b] = np.count_nonzero(cls == j_hat[rows])
     used = size > 0
     p1, p2 = p1[used] / size[used], p2[used] / size[used]
     sd = np.sqrt(np.maximum(p1 + p2 - (p1 - p2) ** 2, 0.0))
@@ -205,14 +217,13 @@ def _strength_correlation(entries: _Entries, y: NDArray[np.int64], j_hat: NDArra
 # ------------------------------------------------------------------------------------------ regression
 def _regression_pass(entries: _Entries, y: NDArray[np.float64], n: int, weights):
     """OOB sums and counts per case, and the (weighted) error curve, accumulated tree by tree."""
-    trees = entries.start.size - 1
+    trees = len(entries.trees)
     sums = np.zeros(n)
     count = np.zeros(n, dtype=np.int64)
     squared = np.zeros(n)
     sse, n_seen = 0.0, 0
     curve = np.full(trees, np.nan)
-    for b in range(trees):
-        rows, value = entries.of_tree(b)
+    for b, rows, value in entries.each():
         fresh = count[rows] == 0
         n_seen += int(np.count_nonzero(fresh)) if weights is None else float(weights[rows][fresh].sum())
         sums[rows] += value
@@ -233,8 +244,10 @@ def _regression(entries: _Entries, y: NDArray[np.float64], weights) -> OutOfBag:
     covered = coverage > 0
     c = np.maximum(coverage, 1)
     predictions = np.where(covered, sums / c, np.nan)
-    deviation = entries.value - predictions[entries.row]
-    spread = np.where(covered, np.sqrt(np.bincount(entries.row, weights=deviation**2, minlength=n) / c), np.nan)
+    squares = np.zeros(n)  # each case's squared deviations summed in tree order (a case once per tree)
+    for _, rows, value in entries.each():
+        squares[rows] += (value - predictions[rows]) ** 2
+    spread = np.where(covered, np.sqrt(squares / c), np.nan)
     residuals = y - predictions
     margins = _standardised(residuals, spread, covered)
     w = np.ones(n) if weights is None else weights

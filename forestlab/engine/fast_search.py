@@ -33,6 +33,7 @@ from numpy.typing import NDArray
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts, record_sides, segment_totals
 from .presort import TrainingData
 from .running import running_sums
+from .segments import gather
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from .workspace import Workspace, scratch
 
@@ -69,7 +70,8 @@ class FastPath:
                 placed[items.wi] = column
                 column = placed
         index = seg.wi if seg.item is None else seg.item
-        elem = np.take(column, index, out=scratch(work, "elem", index.size, column.dtype), mode="clip")
+        elem = gather(column, index, scratch(work, "elem", index.size, column.dtype))
+        del column  # (the items' values: not held through the search)
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)
         return squared_error_best_splits(seg, min_leaf, lightest, elem, parent, out, tie, work)
@@ -179,13 +181,17 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
     else:
         cand_at = _candidates_at(seg, at)
         left, total = _sums_at(seg, elem, at, cand_at, work)
-        right = np.take(total, cand_at, out=scratch(work, "right_at", at.size, total.dtype), mode="clip")
+        # the running sums are spent: where they fit, the right sums and the scores take their buffer
+        spare = elem if 2 * at.size <= elem.size else None
+        right = np.take(total, cand_at, mode="clip", out=scratch(work, "right_at", at.size, total.dtype)
+                        if spare is None else spare[:at.size])
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
     light = light_cuts(seg, wl, wr, min_leaf, lightest)  # (None where ``at`` is used: min_leaf cannot bind)
     size = left.size
     with np.errstate(divide="ignore", invalid="ignore"):
-        score = scratch(work, "score", size, np.float64)
+        score = scratch(work, "score", size, np.float64) if at is None or spare is None else \
+            spare[size:2 * size].view(np.float64)
         if type(splitter) is EntropySplitter:  # minus the children's W i: the decrease less W_t i(t)
             tmp = scratch(work, "tmp1", size, np.float64)
             wl, cl = _unpack(left, work, ("wl", "cl"))

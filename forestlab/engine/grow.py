@@ -79,8 +79,10 @@ def grow_batch(data: TrainingData, rules: GrowthRules, seeds: list[np.random.See
         raise ValueError(f"the bootstrap sample of tree {seeds[empty[0]].spawn_key[-1]} holds only cases of "
                          "weight 0; give more cases a positive weight")
     slot = np.repeat(np.arange(len(gens)), [r.size for r in rows])
-    row = np.concatenate(rows)
+    row = rows[0] if len(rows) == 1 else np.concatenate(rows)  # (one tree: no copy of its rows)
+    del rows, batch.rows
     items = Items(row, slot, row if len(gens) == 1 else slot * n + row)
+    del row, slot  # (held by the items only, so a level can release them)
     node_tree = np.arange(len(gens))
     records: list[dict[str, NDArray]] = []
     depth, sides = 0, None
@@ -115,9 +117,12 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
         closed[:] = True
     open_nodes = np.flatnonzero(~closed)
     splits = Splits.none(K, data.category_words)
+    if closed.any():  # from here on the items of the open nodes only: no second copy of the level's items
+        _narrow(items, ~closed)
+    found = Splits.none(0, data.category_words)  # (the open nodes' splits, numbered among them)
     if open_nodes.size:
-        splits.update(open_nodes, _search_open(data, rules, gens, subspace, batch, items, node_tree, totals,
-                                               weight, closed, open_nodes))
+        found = _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, open_nodes)
+        splits.update(open_nodes, found)
     # breadth-first numbering: the children of a tree's j-th inner node are its nodes 2j+1 and 2j+2 (Tree.left)
     record = {
         "tree": node_tree, "feature": np.where(splits.found, splits.feature, -1),
@@ -125,7 +130,7 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
         "cases": weight, "decrease": np.where(splits.found, splits.decrease, 0.0),
         "missing_left": splits.missing_left & splits.found, "category_left": splits.category_left,
     }
-    next_items = _partition(data, items, splits)
+    next_items = _partition(data, items, found, (2 * (np.cumsum(splits.found) - 1))[open_nodes])
     inner = np.flatnonzero(splits.found)
     sides = None if batch.fast is None else splits.sides[inner].reshape(-1, 3)
     return record, next_items, np.repeat(node_tree[inner], 2), sides
@@ -148,9 +153,9 @@ def _node_summaries(data: TrainingData, batch, items: Items, K: int):
     return weight, totals, value, data.equal_targets(items.row, items.node, K)
 
 
-def _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, closed, open_nodes):
-    """Best split of every open node; per-node samplers fall back to the other features if none splits."""
-    sub_items = _items_of(items, ~closed) if closed.any() else items
+def _search_open(data, rules, gens, subspace, batch, sub_items, node_tree, totals, weight, open_nodes):
+    """Best split of every open node (``sub_items``: their items, numbered among them); per-node samplers fall
+    back to the other features if none splits."""
     sub_tree = node_tree[open_nodes]
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * checked_impurity(rules.splitter, totals[open_nodes])
@@ -176,6 +181,18 @@ def _items_of(items: Items, keep: NDArray[np.bool_]) -> Items:
     return subset
 
 
+def _narrow(items: Items, keep: NDArray[np.bool_]) -> None:
+    """:func:`_items_of` in place: ``items`` holds afterwards only the items of the nodes where ``keep`` is
+    True, numbered among themselves (the arrays it held are released one by one)."""
+    kept = np.flatnonzero(np.take(keep, items.node, mode="clip"))
+    one = items.wi is items.row  # (one tree: the same array)
+    items.row = np.take(items.row, kept, mode="clip")  # one array at a time, each released once replaced
+    items.wi = items.row if one else np.take(items.wi, kept, mode="clip")
+    items.node = np.take(items.node, kept, mode="clip")
+    del kept
+    items.node = np.take(np.cumsum(keep) - 1, items.node, mode="clip")
+
+
 def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.bool_]:
     """Candidate masks of the open nodes, each tree drawing from its own generator."""
     if subspace is not None:
@@ -183,8 +200,9 @@ def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.
     return draw_masks(sampler, gens, np.bincount(sub_tree, minlength=len(gens)), features)
 
 
-def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
-    """Send the items of split nodes to their children (order within each tree kept)."""
+def _partition(data: TrainingData, items: Items, splits: Splits, left_child: NDArray[np.int64]) -> Items:
+    """Send the items of split nodes to their children (order within each tree kept); ``splits`` and
+    ``left_child`` (each node's left child in the next level) are indexed by ``items.node``."""
     found = splits.found
     kept = items if found.all() else items.take(np.flatnonzero(np.take(found, items.node, mode="clip")))
     row, node = kept.row, kept.node
@@ -195,7 +213,6 @@ def _partition(data: TrainingData, items: Items, splits: Splits) -> Items:
         at = np.take(splits.feature * data.rows, node, mode="clip")
         at += row
         go_right = np.take(data.dense.ravel(), at, mode="clip") > np.take(splits.cut_rank, node, mode="clip")
-    left_child = 2 * (np.cumsum(found) - 1)
     return Items(row, np.take(left_child, node, mode="clip") + go_right, kept.wi)
 
 

@@ -16,7 +16,7 @@ from numpy.typing import NDArray
 from .presort import TrainingData
 from .workspace import Workspace, scratch
 
-__all__ = ["Items", "Segments", "run_starts", "sorted_segments"]
+__all__ = ["Items", "Segments", "gather", "run_starts", "sorted_segments"]
 
 
 @dataclass
@@ -55,7 +55,8 @@ class Segments:
     start: NDArray[np.int64]       # (C,) first element of each candidate's segment
     size: NDArray[np.int64]        # (C,) elements of each candidate's segment
     node_first: NDArray[np.int64]  # first candidate of every node that has candidates
-    item: NDArray[np.int64] | None  # (L,) the level's item of each element (None: ``row``, ``wi`` given)
+    item: NDArray | None           # (L,) the level's item of each element, int32 where it fits (None: ``row``,
+                                   # ``wi`` given)
     code: NDArray                  # (L,) candidate and value of each element
     no_cut: NDArray[np.bool_] | None  # (L,) equal value next (None: never)
     items: Items
@@ -117,7 +118,8 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
     if (cand.size - 1).bit_length() + data.dense_bits + item_bits <= 63:
         key, _ = _pair_keys(data, items, cand_feat, ncand, first, item_bits, work)
         key.sort()
-        item = np.bitwise_and(key, (1 << item_bits) - 1, out=scratch(work, "item", key.size, np.int64))
+        item = np.bitwise_and(key, (1 << item_bits) - 1, out=scratch(work, "item", key.size, _item_type(item_bits)),
+                              casting="unsafe")
         if tie_free:  # the key serves as code (shifted only if the candidates are asked for)
             code, shift = key, shift + item_bits
         else:
@@ -128,6 +130,26 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
         item = perm % N if pair_item is None else pair_item[perm]
         code = code[perm]
     return Segments(*parts, item, code, None if tie_free else _equal_next(code, work), items, data, shift)
+
+
+def _item_type(item_bits: int) -> type:
+    """int32 items where they fit (half the bytes of a level's largest index array; read with :func:`gather`
+    or fancy indexing, which cast them a block at a time), else int64."""
+    return np.int32 if item_bits <= 31 else np.int64
+
+
+def gather(values: NDArray, index: NDArray, out: NDArray) -> NDArray:
+    """``np.take(values, index, out=out, mode="clip")``; an index array that is not ``intp`` is read
+    ``_GATHER_BLOCK`` elements at a time (``np.take`` would cast the whole array to a temporary first)."""
+    if index.dtype == np.intp or index.size <= _GATHER_BLOCK:
+        return np.take(values, index, out=out, mode="clip")
+    for lo in range(0, index.size, _GATHER_BLOCK):
+        np.take(values, index[lo:lo + _GATHER_BLOCK], out=out[lo:lo + _GATHER_BLOCK], mode="clip")
+    return out
+
+
+#: Elements of a narrow index array cast and gathered at a time by :func:`gather` (512 KiB of intp)
+_GATHER_BLOCK = 1 << 16
 
 
 def _equal_next(code: NDArray[np.int64], work: Workspace | None) -> NDArray[np.bool_]:
@@ -194,15 +216,22 @@ def _pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_b
     N = items.row.size
     m = int(ncand[0])
     if m and np.all(ncand == m):
-        # slot-major (m, N): a handful of whole-array calls for all slots
-        key, ranks = _slot_ranks(data, items, cand_feat, m, work)
-        np.left_shift(ranks, item_bits, out=key, dtype=np.int64)
-        base = np.take((first << db) << item_bits, items.node, out=scratch(work, "node_base", N, np.int64),
-                       mode="clip")
-        if item_bits:
-            base |= np.arange(N)
-        key += base
-        key += (np.arange(m)[:, None] << db) << item_bits
+        # slot-major (m, N): a handful of whole-array calls per slot, whose temporaries hold N ranks and
+        # blocks of the node bases (not m * N ranks and N bases)
+        key = scratch(work, "key", m * N, np.int64).reshape(m, N)
+        rank = scratch(work, "slot_rank", N, data.dense.dtype)
+        feature_base = cand_feat.reshape(-1, m).T * n
+        for j in range(m):
+            np.take(feature_base[j], items.node, out=key[j], mode="clip")
+            key[j] += items.row
+            np.take(dense, key[j], out=rank, mode="clip")
+            np.left_shift(rank, item_bits, out=key[j], dtype=np.int64)
+            base = ((first + j) << db) << item_bits  # (K,) the candidate's bits of every node's slot j
+            for lo in range(0, N, _GATHER_BLOCK):
+                part = np.take(base, items.node[lo:lo + _GATHER_BLOCK], mode="clip")
+                if item_bits:
+                    part |= np.arange(lo, lo + part.size)
+                key[j, lo:lo + _GATHER_BLOCK] += part
         return key.ravel(), None
     reps = ncand[items.node]
     pair_item = np.repeat(np.arange(N), reps)

@@ -10,7 +10,7 @@ from numpy.typing import NDArray
 
 from .categories import in_left_set
 
-__all__ = ["NODE_STORAGE", "Tree", "goes_right", "leaf_index", "stacked_leaf_values", "tree_values"]
+__all__ = ["NODE_STORAGE", "Tree", "goes_right", "has_missing", "leaf_index", "stacked_leaf_values", "tree_values"]
 
 
 def _read_only(arr: NDArray) -> NDArray:
@@ -142,7 +142,7 @@ def leaf_index(tree: Tree, X: NDArray[np.float64], missing: bool | None = None) 
     """Leaf reached by every row of ``X`` (categorical columns coded as in training), pushing all rows down
     the tree one level at a time. ``missing`` says whether ``X`` holds NaN (found out when None)."""
     if missing is None:
-        missing = bool(np.isnan(X).any())
+        missing = has_missing(X)
     if missing or tree.category_left.shape[1]:
         return _leaf_index_general(tree, X, missing)
     node = np.empty(X.shape[0], dtype=np.int64)
@@ -203,10 +203,20 @@ _COMPACT_EVERY = 2
 def tree_values(trees: Sequence[Tree], X: NDArray[np.float64], dtype: type) -> NDArray:
     """Every tree's value (class index or mean) at the leaf every row of ``X`` reaches: shape (trees, n)."""
     out = np.empty((len(trees), X.shape[0]), dtype=dtype)
-    missing = bool(np.isnan(X).any())
+    missing = has_missing(X)
     for b, tree in enumerate(trees):  # class indices are whole numbers: exact in either type
-        out[b] = np.take(tree.value, leaf_index(tree, X, missing), mode="clip")
+        if missing or tree.category_left.shape[1]:
+            out[b] = np.take(tree.value, leaf_index(tree, X, missing), mode="clip")
+            continue
+        step = _numeric_steps(tree)  # a block of rows at a time, straight into the table (no (n,) leaves)
+        for lo in range(0, X.shape[0], _BLOCK_ROWS):
+            out[b, lo:lo + _BLOCK_ROWS] = np.take(tree.value, _descend(step, X[lo:lo + _BLOCK_ROWS]), mode="clip")
     return out
+
+
+def has_missing(X: NDArray[np.float64]) -> bool:
+    """Whether ``X`` holds a NaN, looked for a block of rows at a time (no (n, p) mask)."""
+    return any(bool(np.isnan(X[lo:lo + _BLOCK_ROWS]).any()) for lo in range(0, X.shape[0], _BLOCK_ROWS))
 
 
 def stacked_leaf_values(trees: list[Tree], tree_of: NDArray[np.intp], row: NDArray[np.intp],

@@ -21,7 +21,7 @@ def data_fingerprint(X: NDArray[np.float64], target: NDArray, weights: NDArray[n
     for part in (np.ascontiguousarray(X, dtype="<f8"), np.ascontiguousarray(target),
                  np.ascontiguousarray(np.empty(0) if weights is None else weights, dtype="<f8")):
         digest.update(repr((part.dtype.str, part.shape)).encode())
-        digest.update(part.tobytes())
+        digest.update(part.reshape(-1).view(np.uint8))  # the bytes in place: no copy of X
     return digest.hexdigest()
 
 
