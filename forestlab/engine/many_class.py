@@ -1,0 +1,136 @@
+"""The many-class (K > 2) Gini and entropy search: O(1) work an element whatever the number of classes.
+
+Without case weights every summed statistic is an integer count. A cut's Gini needs only the side weights
+``W`` and the sums of squared class weights ``Q = sum_k c_k**2``; moving element ``e`` (class ``k``, weight
+``w``) to the left of a cut raises the left ``Q`` by ``w (2 b + w)`` and lowers the right one by ``w (2 a +
+w)``, where ``b`` and ``a`` are the class-``k`` weights before and after it in its segment
+(:func:`.class_ranks.class_ranks`). So three integer running sums (``W``, and those two increments) give
+every cut exactly: ``Q_l`` is the running sum of the first, ``Q_r`` the segment's total of the second less
+its running sum. With ``W i = W - Q / W``, a cut scores ``Q_l / W_l + Q_r / W_r``: the decrease less the
+node's ``W - Q / W`` (formed from its exact ``Q``), with three roundings whatever ``K`` (the splitter's
+generic formula rounds ``K`` squares per side), so exactly equal partitions score exactly alike.
+
+Entropy: ``W i = W log W - sum_k c_k log c_k``, and the increments are ``f(b + w) - f(b)`` and ``f(a + w) -
+f(a)`` with ``f(c) = c log c`` read from a table; these running sums are floating-point (one ``cumsum`` per
+tree, as every float sum of the engine), so scores equal the splitter's up to rounding.
+
+:func:`many_class_cut_scores` is shared by this fast path (numeric features, no missing values) and by the
+generic search for categorical candidates (:mod:`.search`).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from .class_ranks import class_ranks
+from .cuts import light_cuts, per_node, pick_cuts, record_cuts
+from .presort import TrainingData
+from .running import running_sums
+from .splitter import CartSplitter, EntropySplitter, GiniSplitter
+from .workspace import Workspace, scratch
+
+__all__ = ["ManyClassPath", "many_class_applies", "many_class_cut_scores", "many_class_path"]
+
+
+def many_class_applies(data: TrainingData, splitter: CartSplitter) -> bool:
+    """Whether the many-class search serves: built-in Gini or entropy, more than two classes (fewer than
+    2**16), no case weights, and one-hot statistics."""
+    return (type(splitter) in (GiniSplitter, EntropySplitter) and 2 < data.classes < (1 << 16)
+            and data.weights is None and data.stats.shape[1] == 1 + data.classes)
+
+
+def many_class_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uint8]) -> ManyClassPath:
+    """The batch's counts and classes packed for the many-class search (``counts | class << 8``)."""
+    packed = counts.astype(np.int32) | (data.target.astype(np.int32) << 8)[None, :]
+    table = None
+    if type(splitter) is EntropySplitter:
+        c = np.arange(int(counts.sum(axis=1).max()) + 2, dtype=np.float64)
+        table = c * np.log(np.where(c > 0, c, 1.0))
+    return ManyClassPath("many_class", (packed.ravel(),), data, table)
+
+
+@dataclass(frozen=True)
+class ManyClassPath:
+    """A batch's statistics for the many-class search: ``columns[0]`` holds ``count | class << 8`` per
+    (slot, row) (int32); ``table`` is ``c log c`` for every count ``c`` (entropy; None for Gini)."""
+
+    kind: str
+    columns: tuple[NDArray, ...]
+    data: TrainingData
+    table: NDArray[np.float64] | None = None
+
+    def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, means, out,
+                    tie: float, work: Workspace | None):
+        """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
+        column = self.columns[0]
+        if seg.item is not None:  # the level's items' values, then the elements'
+            column = np.take(column, items.wi, mode="clip")
+        index = seg.wi if seg.item is None else seg.item
+        elem = np.take(column, index, out=scratch(work, "mc_elem", index.size, np.int32), mode="clip")
+        w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", elem.size, np.int64), dtype=np.int64)
+        y = np.right_shift(elem, 8, out=elem)
+        nodes, pick, decrease, sides = many_class_cut_scores(seg, seg.cand_of, w, y, self.data.classes, self.table,
+                                                             min_leaf, lightest, parent, tie, work)
+        cand = seg.candidate(pick)
+        return record_cuts(seg, out, nodes, pick, decrease, sides[0] >= sides[1], cand)
+
+    def sides(self, items, K: int) -> NDArray[np.float64]:
+        """Unused by this search (its node sums come from the items): zeros, shape (K, 3)."""
+        return np.zeros((K, 3))
+
+    def summaries(self, data: TrainingData, items, K: int, sides):
+        """Case weight, per-class totals, leaf value (heaviest class, lowest on ties) and purity of every
+        node, summed over its items (integer counts: exact, the same as the generic search's)."""
+        packed = np.take(self.columns[0], items.wi, mode="clip")
+        cell = items.node * data.classes + (packed >> 8)
+        by_class = np.bincount(cell, weights=packed & 0xFF, minlength=K * data.classes).reshape(K, data.classes)
+        weight = by_class.sum(axis=1)
+        totals = np.column_stack([weight, by_class])
+        pure = np.count_nonzero(by_class, axis=1) <= 1
+        return weight, totals, np.argmax(by_class, axis=1).astype(np.float64), pure
+
+
+def many_class_cut_scores(seg, cand_of, w, y, classes: int, table, min_leaf: float, lightest: float, parent,
+                          tie: float, work: Workspace | None):
+    """The best cut of every node from the elements' integer weights ``w`` and classes ``y`` (sorted
+    segments ``seg``, ``cand_of`` each element's candidate; ``table`` as :class:`ManyClassPath`'s, None for
+    Gini). Returns the nodes that have a cut, the cuts (elements), their decreases and the side weights
+    ``(W_l, W_r)`` of each cut; boundaries that are no valid cut are ``seg.no_cut``'s."""
+    L = w.size
+    before, after = class_ranks(w, y, cand_of, classes, work)
+    sums = scratch(work, "mc_sums", 3 * L, np.int64 if table is None else np.float64).reshape(3, L)
+    sums[0] = w
+    if table is None:  # w (2 b + w) and w (2 a + w)
+        for row, rank in ((sums[1], before), (sums[2], after)):
+            np.multiply(rank, 2, out=rank)
+            rank += w
+            np.multiply(rank, w, out=row)
+    else:  # f(b + w) - f(b) and f(a + w) - f(a)
+        for row, rank in ((sums[1], before), (sums[2], after)):
+            np.take(table, rank + w, out=row, mode="clip")
+            row -= np.take(table, rank, mode="clip")
+    cs, totals = running_sums(sums, seg.start, seg.cand_tree, out=sums)
+    wl, gain_l, gain_r = cs
+    right_total = np.take(totals, seg.cand_of if cand_of is None else cand_of, axis=1, mode="clip")
+    wr = np.subtract(right_total[0], wl, out=right_total[0])
+    rest = np.subtract(right_total[2], gain_r, out=right_total[2])  # the right side's Q (or sum c log c)
+    light = light_cuts(seg, wl, wr, min_leaf, lightest)
+    score = scratch(work, "mc_score", L, np.float64)
+    node_first = seg.node_first
+    node_w = totals[0, node_first]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if table is None:
+            np.divide(gain_l, wl, out=score)
+            score += rest / wr
+            base = per_node(seg, parent, -totals[1, node_first] / node_w)
+            nodes, pick, decrease = pick_cuts(seg, parent, base, tie, score, light, work)
+        else:
+            np.add(gain_l, rest, out=score)
+            score -= np.take(table, wl.astype(np.int64), mode="clip")
+            score -= np.take(table, wr.astype(np.int64), mode="clip")
+            nodes, pick, decrease = pick_cuts(seg, parent, parent, tie, score, light, work)
+    return nodes, pick, decrease, (wl[pick], wr[pick])
+
