@@ -65,17 +65,26 @@ class ManyClassPath:
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, means, out,
                     tie: float, work: Workspace | None):
         """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
-        column = self.columns[0]
-        if seg.item is not None:  # the level's items' values, then the elements'
-            column = np.take(column, items.wi, mode="clip")
+        K = self.data.classes
+        packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
+        cell = items.node * K + (packed >> 8)
+        node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
+        column = np.take(node_class, cell, mode="clip") << 24  # and the node's weight of the item's class
+        column |= packed
+        if seg.item is None:  # gathered by statistics index: the items' values put in place
+            placed = scratch(work, "mc_placed", self.columns[0].size, np.int64)
+            placed[items.wi] = column
+            column = placed
         index = seg.wi if seg.item is None else seg.item
-        elem = np.take(column, index, out=scratch(work, "mc_elem", index.size, np.int32), mode="clip")
-        w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", elem.size, np.int64), dtype=np.int64)
-        y = np.right_shift(elem, 8, out=elem)
-        nodes, pick, decrease, sides = many_class_cut_scores(seg, seg.cand_of, w, y, self.data.classes, self.table,
-                                                             min_leaf, lightest, parent, tie, work)
-        cand = seg.candidate(pick)
-        return record_cuts(seg, out, nodes, pick, decrease, sides[0] >= sides[1], cand)
+        elem = np.take(column, index, out=scratch(work, "mc_elem", index.size, np.int64), mode="clip")
+        L = elem.size
+        cand = np.right_shift(seg.code, seg.code_shift, out=scratch(work, "mc_cand", L, np.int32), casting="unsafe")
+        w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", L, np.int32), casting="unsafe")
+        y = np.bitwise_and(np.right_shift(elem, 8), 0xFFFF, out=scratch(work, "mc_y", L, np.int32), casting="unsafe")
+        class_total = np.right_shift(elem, 24, out=elem)
+        nodes, pick, decrease, sides = many_class_cut_scores(seg, cand, w, y, class_total, K, self.table, min_leaf,
+                                                             lightest, parent, tie, work)
+        return record_cuts(seg, out, nodes, pick, decrease, sides[0] >= sides[1], seg.candidate(pick))
 
     def sides(self, items, K: int) -> NDArray[np.float64]:
         """Unused by this search (its node sums come from the items): zeros, shape (K, 3)."""
@@ -93,44 +102,49 @@ class ManyClassPath:
         return weight, totals, np.argmax(by_class, axis=1).astype(np.float64), pure
 
 
-def many_class_cut_scores(seg, cand_of, w, y, classes: int, table, min_leaf: float, lightest: float, parent,
-                          tie: float, work: Workspace | None):
-    """The best cut of every node from the elements' integer weights ``w`` and classes ``y`` (sorted
-    segments ``seg``, ``cand_of`` each element's candidate; ``table`` as :class:`ManyClassPath`'s, None for
-    Gini). Returns the nodes that have a cut, the cuts (elements), their decreases and the side weights
-    ``(W_l, W_r)`` of each cut; boundaries that are no valid cut are ``seg.no_cut``'s."""
+def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min_leaf: float, lightest: float,
+                          parent, tie: float, work: Workspace | None):
+    """The best cut of every node from the elements' integer weights ``w``, classes ``y`` and their class's
+    weight in the node, ``class_total`` (sorted segments ``seg``, ``cand`` each element's candidate;
+    ``table`` as :class:`ManyClassPath`'s, None for Gini). Returns the nodes that have a cut, the cuts
+    (elements), their decreases and the side weights ``(W_l, W_r)`` of each cut; the boundaries that are no
+    valid cut are ``seg.no_cut``'s (and the segment ends)."""
     L = w.size
-    before, after = class_ranks(w, y, cand_of, classes, work)
+    before = class_ranks(w, y, cand, classes, work)
     sums = scratch(work, "mc_sums", 3 * L, np.int64 if table is None else np.float64).reshape(3, L)
     sums[0] = w
-    if table is None:  # w (2 b + w) and w (2 a + w)
-        for row, rank in ((sums[1], before), (sums[2], after)):
-            np.multiply(rank, 2, out=rank)
-            rank += w
-            np.multiply(rank, w, out=row)
-    else:  # f(b + w) - f(b) and f(a + w) - f(a)
-        for row, rank in ((sums[1], before), (sums[2], after)):
-            np.take(table, rank + w, out=row, mode="clip")
-            row -= np.take(table, rank, mode="clip")
+    if table is None:  # w (2 b + w) and w (2 a + w), with a = C - b - w after the element
+        t = np.multiply(before, 2, out=scratch(work, "mc_t", L, np.int64))
+        t += w
+        np.multiply(t, w, out=sums[1])
+        np.multiply(class_total, 2, out=sums[2])
+        sums[2] -= t
+        sums[2] *= w
+    else:  # f(b + w) - f(b) and f(a + w) - f(a) = f(C - b) - f(C - b - w)
+        t = np.add(before, w, out=scratch(work, "mc_t", L, np.int64))
+        np.take(table, t, out=sums[1], mode="clip")
+        sums[1] -= np.take(table, before, mode="clip")
+        np.subtract(class_total, before, out=t)
+        np.take(table, t, out=sums[2], mode="clip")
+        t -= w
+        sums[2] -= np.take(table, t, mode="clip")
     cs, totals = running_sums(sums, seg.start, seg.cand_tree, out=sums)
     wl, gain_l, gain_r = cs
-    right_total = np.take(totals, seg.cand_of if cand_of is None else cand_of, axis=1, mode="clip")
+    right_total = np.take(totals, cand, axis=1, mode="clip")
     wr = np.subtract(right_total[0], wl, out=right_total[0])
     rest = np.subtract(right_total[2], gain_r, out=right_total[2])  # the right side's Q (or sum c log c)
     light = light_cuts(seg, wl, wr, min_leaf, lightest)
     score = scratch(work, "mc_score", L, np.float64)
     node_first = seg.node_first
-    node_w = totals[0, node_first]
     with np.errstate(divide="ignore", invalid="ignore"):
-        if table is None:
+        if table is None:  # Q_l / W_l + Q_r / W_r, the decrease less the node's W - Q / W
             np.divide(gain_l, wl, out=score)
-            score += rest / wr
-            base = per_node(seg, parent, -totals[1, node_first] / node_w)
+            score += np.divide(rest, wr, out=scratch(work, "mc_tmp", L, np.float64))
+            base = per_node(seg, parent, -totals[1, node_first] / totals[0, node_first])
             nodes, pick, decrease = pick_cuts(seg, parent, base, tie, score, light, work)
-        else:
+        else:  # the sums of c log c less W log W of each side: the decrease less the node's W i
             np.add(gain_l, rest, out=score)
             score -= np.take(table, wl.astype(np.int64), mode="clip")
             score -= np.take(table, wr.astype(np.int64), mode="clip")
             nodes, pick, decrease = pick_cuts(seg, parent, parent, tie, score, light, work)
     return nodes, pick, decrease, (wl[pick], wr[pick])
-
