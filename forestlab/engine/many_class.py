@@ -29,10 +29,11 @@ from .class_ranks import class_ranks
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts
 from .presort import TrainingData
 from .running import running_sums
-from .splitter import CartSplitter, EntropySplitter, GiniSplitter
+from .splitter import CartSplitter, EntropySplitter, GiniSplitter, call_splitter
 from .workspace import Workspace, scratch
 
-__all__ = ["ManyClassPath", "many_class_applies", "many_class_cut_scores", "many_class_path"]
+__all__ = ["ManyClassPath", "many_class_applies", "many_class_cut_scores", "many_class_path",
+           "splitter_decrease"]
 
 
 def many_class_applies(data: TrainingData, splitter: CartSplitter) -> bool:
@@ -84,7 +85,9 @@ class ManyClassPath:
         class_total = np.right_shift(elem, 24, out=elem)
         nodes, pick, decrease, sides = many_class_cut_scores(seg, cand, w, y, class_total, K, self.table, min_leaf,
                                                              lightest, parent, tie, work)
-        return record_cuts(seg, out, nodes, pick, decrease, sides[0] >= sides[1], seg.candidate(pick))
+        chosen = seg.candidate(pick)
+        decrease = splitter_decrease(splitter, seg, chosen, pick, w, y, K, parent[nodes])
+        return record_cuts(seg, out, nodes, pick, decrease, sides[0] >= sides[1], chosen)
 
     def sides(self, items, K: int) -> NDArray[np.float64]:
         """Unused by this search (its node sums come from the items): zeros, shape (K, 3)."""
@@ -148,3 +151,21 @@ def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min
             score -= np.take(table, wr.astype(np.int64), mode="clip")
             nodes, pick, decrease = pick_cuts(seg, parent, parent, tie, score, light, work)
     return nodes, pick, decrease, (wl[pick], wr[pick])
+
+
+def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent) -> NDArray[np.float64]:
+    """The decrease of each chosen cut (after element ``cut`` of candidate ``cand``) as the generic search
+    forms it, ``W_t i(t) - W_l i(l) - W_r i(r)`` from the sides' class weights with the splitter's own
+    ``impurity``, so a stored decrease does not depend on the search that found the split. One pass over the
+    chosen segments: as many elements as the nodes have items."""
+    size = seg.size[cand]
+    owner = np.repeat(np.arange(cand.size), size)
+    element = np.arange(owner.size) + np.repeat(seg.start[cand] - (np.cumsum(size) - size), size)
+    right = element > np.repeat(cut, size)
+    cell = (owner * 2 + right) * classes + np.take(y, element, mode="clip")
+    by_class = np.bincount(cell, weights=np.take(w, element, mode="clip"), minlength=cand.size * 2 * classes)
+    S = np.empty((cand.size, 2, 1 + classes))
+    S[..., 1:] = by_class.reshape(cand.size, 2, classes)
+    S[..., 0] = S[..., 1:].sum(axis=-1)
+    impurity = call_splitter(splitter, "impurity", S)
+    return parent - S[:, 0, 0] * impurity[:, 0] - S[:, 1, 0] * impurity[:, 1]
