@@ -22,6 +22,8 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
+from .principal_axis import projections
+
 __all__ = ["category_order", "in_left_set", "left_sets", "words_for"]
 
 
@@ -52,15 +54,13 @@ def category_order(weight: NDArray[np.float64], response: NDArray[np.float64],
 
 
 def _first_component_scores(weight, by_class):
-    """Projection of each category's class shares on the first weighted principal component."""
+    """Projection of each category's class shares on the first weighted principal component (up to a
+    positive factor; :func:`.principal_axis.projections`)."""
     shares = by_class / np.where(weight > 0, weight, 1.0)[..., None]
     total = weight.sum(axis=1, keepdims=True)
     total[total == 0] = 1.0  # a candidate whose node cases all miss this feature: no category to order
     mean = np.einsum("ck,ckj->cj", weight, shares) / total
-    centred = shares - mean[:, None, :]
-    cov = np.einsum("ck,cki,ckj->cij", weight, centred, centred) / total[..., None]
-    _, vectors = np.linalg.eigh(cov)
-    return np.einsum("cki,ci->ck", centred, vectors[:, :, -1])
+    return projections(weight, shares - mean[:, None, :])
 
 
 def left_sets(pos: NDArray[np.int64], weight: NDArray[np.float64], cut: NDArray[np.float64],

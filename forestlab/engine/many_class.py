@@ -32,7 +32,7 @@ from .running import running_sums
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, call_splitter
 from .workspace import Workspace, scratch
 
-__all__ = ["ManyClassPath", "many_class_applies", "many_class_cut_scores", "many_class_path",
+__all__ = ["ManyClassPath", "entropy_table", "many_class_applies", "many_class_cut_scores", "many_class_path",
            "splitter_decrease"]
 
 
@@ -46,11 +46,14 @@ def many_class_applies(data: TrainingData, splitter: CartSplitter) -> bool:
 def many_class_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uint8]) -> ManyClassPath:
     """The batch's counts and classes packed for the many-class search (``counts | class << 8``)."""
     packed = counts.astype(np.int32) | (data.target.astype(np.int32) << 8)[None, :]
-    table = None
-    if type(splitter) is EntropySplitter:
-        c = np.arange(int(counts.sum(axis=1).max()) + 2, dtype=np.float64)
-        table = c * np.log(np.where(c > 0, c, 1.0))
+    table = entropy_table(int(counts.sum(axis=1).max())) if type(splitter) is EntropySplitter else None
     return ManyClassPath("many_class", (packed.ravel(),), data, table)
+
+
+def entropy_table(largest: int) -> NDArray[np.float64]:
+    """``c log c`` for every count ``c`` from 0 to ``largest + 1`` (0 at 0)."""
+    c = np.arange(largest + 2, dtype=np.float64)
+    return c * np.log(np.where(c > 0, c, 1.0))
 
 
 @dataclass(frozen=True)

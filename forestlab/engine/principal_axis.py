@@ -1,0 +1,61 @@
+"""The first principal axis of many small weighted point clouds at once, by power iteration.
+
+The many-class category order (:mod:`.categories`) projects every category's class shares on the first
+principal component of the node's weighted class-share matrix (Coppersmith, Hong & Hosking 1999). Solving a
+``K x K`` eigen-problem per candidate (LAPACK, one call per matrix) cost about 14 microseconds a candidate at
+``K = 10`` (more at larger ``K``), several times the rest of a categorical search. Only the leading
+direction is needed, and only through the order of the projections, so it is found by power iteration on
+the smaller of the two Gram matrices of ``A = sqrt(w) * centred`` (rows: categories, columns: classes):
+``A A^T`` (categories x categories) or ``A^T A`` (classes x classes, the weighted covariance up to a factor),
+all candidates together, the same number of iterations for each (so its result does not depend on the
+other candidates of its batch).
+
+The direction of an eigenvector is arbitrary; it is fixed here so that the largest (then the first)
+component of the class-space direction is positive, which decides which side of a split is "left".
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import NDArray
+
+__all__ = ["projections"]
+
+#: power iterations of every candidate: the same number for all, so a candidate's result does not depend on
+#: the other candidates of its batch. Leading eigenvalues that differ by a factor 1.5 leave the second
+#: direction at 1.5**-24 (1e-4 relative) of the first, far more than the order of a few categories needs.
+ITERATIONS = 12
+
+
+def projections(weight: NDArray[np.float64], centred: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Scores of the categories (C, k) along each candidate's first weighted principal axis, up to a
+    positive factor per candidate (only their order is used). ``weight`` (C, k) is each category's weight,
+    ``centred`` (C, k, K) its class shares less the candidate's weighted mean shares. A candidate whose points
+    all coincide gets zeros."""
+    C, k, K = centred.shape
+    A = np.sqrt(weight)[..., None] * centred
+    if k <= K:  # iterate in category space: u ~ A v, and the scores are (A A^T u) / sqrt(w)
+        gram = np.einsum("cik,cjk->cij", A, A)
+        u = _leading(gram)
+        v = np.einsum("cik,ci->ck", A, u)
+    else:
+        v = _leading(np.einsum("cki,ckj->cij", A, A))
+    big = np.argmax(np.abs(v), axis=1)
+    v *= np.where(np.take_along_axis(v, big[:, None], axis=1) < 0, -1.0, 1.0)
+    return np.einsum("cki,ci->ck", centred, v)
+
+
+def _leading(gram: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Approximate unit leading eigenvector of every symmetric positive semi-definite matrix of ``gram``
+    (C, r, r) (zeros for a zero matrix): :data:`ITERATIONS` power iterations from its heaviest column."""
+    diagonal = np.einsum("cii->ci", gram)
+    u = np.take_along_axis(gram, np.argmax(diagonal, axis=1)[:, None, None], axis=2)  # (C, r, 1)
+    for _ in range(ITERATIONS):
+        u = _unit(np.matmul(gram, u))
+    return u[..., 0]
+
+
+def _unit(u: NDArray[np.float64]) -> NDArray[np.float64]:
+    """``u`` (C, r, 1) scaled to unit length (zero vectors stay zero)."""
+    norm = np.sqrt(np.einsum("cij,cij->c", u, u))
+    return u / np.where(norm > 0, norm, 1.0)[:, None, None]
