@@ -35,27 +35,27 @@ def projections(weight: NDArray[np.float64], centred: NDArray[np.float64]) -> ND
     C, k, K = centred.shape
     A = np.sqrt(weight)[..., None] * centred
     if k <= K:  # iterate in category space: u ~ A v, and the scores are (A A^T u) / sqrt(w)
-        gram = np.einsum("cik,cjk->cij", A, A)
-        u = _leading(gram)
-        v = np.einsum("cik,ci->ck", A, u)
+        u = _leading(np.matmul(A, A.transpose(0, 2, 1)))
+        v = np.matmul(A.transpose(0, 2, 1), u)[..., 0]
     else:
-        v = _leading(np.einsum("cki,ckj->cij", A, A))
+        v = _leading(np.matmul(A.transpose(0, 2, 1), A))[..., 0]
     big = np.argmax(np.abs(v), axis=1)
     v *= np.where(np.take_along_axis(v, big[:, None], axis=1) < 0, -1.0, 1.0)
-    return np.einsum("cki,ci->ck", centred, v)
+    return np.matmul(centred, v[..., None])[..., 0]
 
 
 def _leading(gram: NDArray[np.float64]) -> NDArray[np.float64]:
     """Approximate unit leading eigenvector of every symmetric positive semi-definite matrix of ``gram``
-    (C, r, r) (zeros for a zero matrix): :data:`ITERATIONS` power iterations from its heaviest column."""
+    (C, r, r), shape (C, r, 1) (zeros for a zero matrix): :data:`ITERATIONS` power iterations from its
+    heaviest column."""
     diagonal = np.einsum("cii->ci", gram)
     u = np.take_along_axis(gram, np.argmax(diagonal, axis=1)[:, None, None], axis=2)  # (C, r, 1)
     for _ in range(ITERATIONS):
         u = _unit(np.matmul(gram, u))
-    return u[..., 0]
+    return u
 
 
 def _unit(u: NDArray[np.float64]) -> NDArray[np.float64]:
     """``u`` (C, r, 1) scaled to unit length (zero vectors stay zero)."""
-    norm = np.sqrt(np.einsum("cij,cij->c", u, u))
+    norm = np.sqrt(np.square(u).sum(axis=(1, 2)))
     return u / np.where(norm > 0, norm, 1.0)[:, None, None]

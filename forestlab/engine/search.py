@@ -176,12 +176,24 @@ def _order_categories(data: TrainingData, seg: Segments, weights) -> _CategoryOr
     pos = category_order(weight, response, by_class)
     position = np.full(el.size, float(k))
     position[seen] = pos.ravel()[slot]
-    perm = np.argsort(lc * (k + 1) + position.astype(np.int64), kind="stable")
+    perm = _stable_order(lc * (k + 1) + position.astype(np.int64))
     position[~seen] = np.nan
     seg.x[el] = position[perm]
     seg.wi[el] = seg.wi[el][perm]
     seg.row[el] = seg.row[el][perm]
     return _CategoryOrder(local, pos, weight)
+
+
+def _stable_order(key: NDArray[np.int64]) -> NDArray[np.intp]:
+    """``np.argsort(key, kind="stable")`` for non-negative keys, by one sort of ``key << bits | index`` where
+    that fits 63 bits (a quarter of the time)."""
+    bits = max(1, (key.size - 1).bit_length())
+    if key.size == 0 or int(key.max()).bit_length() + bits > 63:
+        return np.argsort(key, kind="stable")
+    packed = key << bits
+    packed |= np.arange(key.size)
+    packed.sort()
+    return np.bitwise_and(packed, (1 << bits) - 1, out=packed)
 
 
 def _record_category_sets(out: Splits, order: _CategoryOrder, nodes, cand, cut_position, words: int) -> None:
