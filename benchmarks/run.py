@@ -61,6 +61,9 @@ sys.path.insert(0, str(REPO))
 
 import forestlab as fl  # noqa: E402
 
+sys.path.insert(0, str(REPO / "benchmarks"))
+import many_class_rows  # noqa: E402  (the many-class rows of issue 17)
+
 OUT = REPO / "benchmarks" / "out"
 
 # Full sizes (issue 4) and --quick sizes of every row.
@@ -77,6 +80,7 @@ PLANS = {
         "memory": {"n": 100_000, "p": 50, "trees": 100},
         "growth": {"small": 10_000, "large": 100_000, "p": 10, "trees": 100},
         "workers": {"n": 10_000, "p": 10, "trees": 200},
+        "many_class": many_class_rows.FULL,
     },
     "quick": {
         "fits": [
@@ -89,6 +93,7 @@ PLANS = {
         "memory": {"n": 20_000, "p": 50, "trees": 10},
         "growth": {"small": 2_000, "large": 20_000, "p": 10, "trees": 20},
         "workers": {"n": 10_000, "p": 10, "trees": 40},
+        "many_class": many_class_rows.QUICK,
     },
 }
 
@@ -434,6 +439,7 @@ def table(results, mode, yardstick_note) -> str:
     rows.append((f"workers=2 vs 1, n={spec['n']} {spec['trees']} trees (speed-up)",
                  f"{statistics.median(w['workers1_s']):.2f} -> {statistics.median(w['workers2_s']):.2f} s", "-",
                  f"{w['speedup']:.2f}x", ">= 1.7x", "1.9x"))
+    rows += many_class_rows.table_rows(results.get("many_class", []))
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
     lines = ["| " + " | ".join(c.ljust(wd) for c, wd in zip(r, widths)) + " |" for r in rows]
     lines.insert(1, "|" + "|".join("-" * (wd + 2) for wd in widths) + "|")
@@ -499,6 +505,7 @@ def main() -> None:
         results["memory"] = bench_memory(plan["memory"], log)
         results["growth"] = bench_growth(plan["growth"], args.repeats, log)
         results["workers"] = bench_workers(plan["workers"], args.repeats, log)
+        results["many_class"] = many_class_rows.bench(plan["many_class"], yardstick, args.repeats, log)
     finally:
         yardstick.close()
     results["table"] = table(results, mode, yardstick.note)
