@@ -35,11 +35,9 @@ def class_ranks(w: NDArray, y: NDArray, cand: NDArray, classes: int, work: Works
     order, first = _class_groups(y, cand, classes, work)
     wp = np.take(w, order, out=scratch(work, "cr_wp", L, dtype), mode="clip")
     cs = np.cumsum(wp, out=scratch(work, "cr_cs", L, dtype))
-    spread = scratch(work, "cr_spread", L, dtype)
-    spread.fill(0)
-    np.subtract(cs, wp, out=spread, where=first)  # the sum before each group's first element
-    np.maximum.accumulate(spread, out=spread)
-    before_p = np.subtract(cs, wp, out=wp)
+    before_p = np.subtract(cs, wp, out=wp)  # the sum before each element
+    spread = np.multiply(before_p, first, out=cs)  # ... at each group's first element, 0 elsewhere
+    np.maximum.accumulate(spread, out=spread)  # (the sums never decrease)
     before_p -= spread
     before = scratch(work, "cr_before", L, dtype)
     before[order] = before_p

@@ -136,9 +136,10 @@ def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min
         sums[2] -= np.take(table, t, mode="clip")
     cs, totals = running_sums(sums, seg.start, seg.cand_tree, out=sums)
     wl, gain_l, gain_r = cs
-    right_total = np.take(totals, cand, axis=1, mode="clip")
-    wr = np.subtract(right_total[0], wl, out=right_total[0])
-    rest = np.subtract(right_total[2], gain_r, out=right_total[2])  # the right side's Q (or sum c log c)
+    wr = _spread(seg, cand, totals[0], scratch(work, "mc_wr", L, totals.dtype))
+    wr -= wl
+    rest = _spread(seg, cand, totals[2], scratch(work, "mc_rest", L, totals.dtype))
+    rest -= gain_r  # the right side's Q (or sum of c log c)
     light = light_cuts(seg, wl, wr, min_leaf, lightest)
     score = scratch(work, "mc_score", L, np.float64)
     node_first = seg.node_first
@@ -154,6 +155,15 @@ def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min
             score -= np.take(table, wr.astype(np.int64), mode="clip")
             nodes, pick, decrease = pick_cuts(seg, parent, parent, tie, score, light, work)
     return nodes, pick, decrease, (wl[pick], wr[pick])
+
+
+def _spread(seg, cand, total, out):
+    """Every element's segment total, into ``out``: repeated over long segments (12 elements or more on
+    average), else gathered by candidate."""
+    if total.size * 12 <= out.size:
+        out[:] = np.repeat(total, seg.size)
+        return out
+    return np.take(total, cand, out=out, mode="clip")
 
 
 def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent) -> NDArray[np.float64]:
