@@ -32,31 +32,33 @@ def projections(weight: NDArray[np.float64], centred: NDArray[np.float64]) -> ND
     """Scores of the categories (C, k) along each candidate's first weighted principal axis, up to a
     positive factor per candidate (only their order is used). ``weight`` (C, k) is each category's weight,
     ``centred`` (C, k, K) its class shares less the candidate's weighted mean shares. A candidate whose points
-    all coincide gets zeros."""
+    all coincide gets zeros. The power iterations run with the candidates last (``einsum`` over (r, r, C)
+    arrays): a stacked ``matmul`` of 8 x 8 matrices took three times as long."""
     C, k, K = centred.shape
     A = np.sqrt(weight)[..., None] * centred
-    if k <= K:  # iterate in category space: u ~ A v, and the scores are (A A^T u) / sqrt(w)
-        u = _leading(np.matmul(A, A.transpose(0, 2, 1)))
-        v = np.matmul(A.transpose(0, 2, 1), u)[..., 0]
+    if k <= K:  # iterate in category space: u ~ A v
+        u = _leading(np.ascontiguousarray(np.matmul(A, A.transpose(0, 2, 1)).transpose(1, 2, 0)))
+        v = np.matmul(A.transpose(0, 2, 1), u.T[..., None])[..., 0]
     else:
-        v = _leading(np.matmul(A.transpose(0, 2, 1), A))[..., 0]
+        v = _leading(np.ascontiguousarray(np.matmul(A.transpose(0, 2, 1), A).transpose(1, 2, 0))).T
     big = np.argmax(np.abs(v), axis=1)
     v *= np.where(np.take_along_axis(v, big[:, None], axis=1) < 0, -1.0, 1.0)
     return np.matmul(centred, v[..., None])[..., 0]
 
 
 def _leading(gram: NDArray[np.float64]) -> NDArray[np.float64]:
-    """Approximate unit leading eigenvector of every symmetric positive semi-definite matrix of ``gram``
-    (C, r, r), shape (C, r, 1) (zeros for a zero matrix): :data:`ITERATIONS` power iterations from its
-    heaviest column."""
-    diagonal = np.einsum("cii->ci", gram)
-    u = np.take_along_axis(gram, np.argmax(diagonal, axis=1)[:, None, None], axis=2)  # (C, r, 1)
+    """Approximate unit leading eigenvector (r, C) of every symmetric positive semi-definite matrix of
+    ``gram`` (r, r, C) (zeros for a zero matrix): :data:`ITERATIONS` power iterations from its heaviest
+    column."""
+    r, _, C = gram.shape
+    diagonal = np.einsum("iic->ic", gram)
+    u = _unit(np.take_along_axis(gram, np.argmax(diagonal, axis=0)[None, None, :], axis=1)[:, 0, :])
     for _ in range(ITERATIONS):
-        u = _unit(np.matmul(gram, u))
+        u = _unit(np.einsum("ijc,jc->ic", gram, u))
     return u
 
 
 def _unit(u: NDArray[np.float64]) -> NDArray[np.float64]:
-    """``u`` (C, r, 1) scaled to unit length (zero vectors stay zero)."""
-    norm = np.sqrt(np.square(u).sum(axis=(1, 2)))
-    return u / np.where(norm > 0, norm, 1.0)[:, None, None]
+    """``u`` (r, C) scaled to unit length per candidate (zero vectors stay zero)."""
+    norm = np.sqrt(np.einsum("ic,ic->c", u, u))
+    return u / np.where(norm > 0, norm, 1.0)[None, :]
