@@ -118,3 +118,20 @@ def test_principal_axis_follows_the_leading_eigenvector():
                                        atol=1e-9 * np.abs(reference[c]).max())
             checked += 1
     assert checked > 100
+
+
+@pytest.mark.parametrize("kind, categorical", [("gini", None), ("entropy", None), ("gini", [0, 1, 2])])
+def test_many_class_forests_do_not_depend_on_the_batch(monkeypatch, kind, categorical):
+    """forestlab's rule (a tree never depends on the trees grown beside it), for the many-class search and
+    the category order's power iterations: batches of 1 and of 40 trees give the same forest."""
+    import forestlab._fitting as fitting
+    from test_reproducibility import assert_same_forest
+    rng = np.random.default_rng(11)
+    X = rng.integers(0, 6, size=(120, 4)).astype(float) + (0 if categorical else rng.normal(size=(120, 4)))
+    y = np.argmax(X @ rng.normal(size=(4, 6)) + 2 * rng.normal(size=(120, 6)), axis=1)
+    monkeypatch.setattr(fitting, "BATCH_ITEMS", 10**9)
+    forests = []
+    for size in (1, 40):
+        monkeypatch.setattr(fitting, "MAX_BATCH", size)
+        forests.append(fl.Forest(trees=40, splitter=kind, categorical=categorical, rng=4).fit(X, y))
+    assert_same_forest(*forests)
