@@ -61,10 +61,17 @@ def _first_component_scores(weight, by_class):
     for lo in range(0, weight.shape[0], BLOCK):
         w, counts = weight[lo:lo + BLOCK], by_class[lo:lo + BLOCK]
         shares = counts / np.where(w > 0, w, 1.0)[..., None]
+        present = counts.any(axis=1)  # (candidates, K): the classes in the node
+        two = np.flatnonzero(np.count_nonzero(present, axis=1) <= 2)
+        # at most two classes: the axis is that of the first one's share (up to rounding and a factor)
+        scores[lo + two] = np.take_along_axis(shares[two], np.argmax(present[two], axis=1)[:, None, None],
+                                              axis=2)[..., 0]
+        more = np.flatnonzero(np.count_nonzero(present, axis=1) > 2)
+        w, shares = w[more], shares[more]
         total = w.sum(axis=1, keepdims=True)
         total[total == 0] = 1.0  # a candidate whose node cases all miss this feature: no category to order
         mean = np.einsum("ck,ckj->cj", w, shares) / total
-        scores[lo:lo + BLOCK] = projections(w, shares - mean[:, None, :])
+        scores[lo + more] = projections(w, shares - mean[:, None, :])
     return scores
 
 

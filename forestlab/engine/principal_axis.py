@@ -10,8 +10,10 @@ the smaller of the two Gram matrices of ``A = sqrt(w) * centred`` (rows: categor
 all candidates together, the same number of iterations for each (so its result does not depend on the
 other candidates of its batch).
 
-The direction of an eigenvector is arbitrary; it is fixed here so that the largest (then the first)
-component of the class-space direction is positive, which decides which side of a split is "left".
+The direction of an eigenvector is arbitrary; it is fixed here so that the first of the largest components
+(within a relative 1e-6) of the class-space direction is positive, which decides which side of a split is
+"left". With two classes in a node that is the lower class, so its categories are ordered by that class's
+share, as :mod:`.categories` orders them directly for such nodes.
 """
 
 from __future__ import annotations
@@ -26,6 +28,9 @@ __all__ = ["projections"]
 #: eigenvalue to the first: leading eigenvalues apart by a factor 2 leave it at 2**-12 (2.4e-4) of the
 #: first, by a factor 4 at 6e-8; only the order of a node's few categories is read from the result.
 ITERATIONS = 12
+#: components within this relative distance of the largest count as largest for the direction (the first
+#: of them decides): with two classes in a node the two components are equal up to rounding
+LEADING = 1e-6
 
 
 def projections(weight: NDArray[np.float64], centred: NDArray[np.float64]) -> NDArray[np.float64]:
@@ -41,7 +46,8 @@ def projections(weight: NDArray[np.float64], centred: NDArray[np.float64]) -> ND
         v = np.matmul(A.transpose(0, 2, 1), u.T[..., None])[..., 0]
     else:
         v = _leading(np.ascontiguousarray(np.matmul(A.transpose(0, 2, 1), A).transpose(1, 2, 0))).T
-    big = np.argmax(np.abs(v), axis=1)
+    size = np.abs(v)
+    big = np.argmax(size >= (1 - LEADING) * size.max(axis=1, keepdims=True), axis=1)
     v *= np.where(np.take_along_axis(v, big[:, None], axis=1) < 0, -1.0, 1.0)
     return np.matmul(centred, v[..., None])[..., 0]
 
