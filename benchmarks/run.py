@@ -407,39 +407,7 @@ def table(results, mode, yardstick_note) -> str:
         c = f"{fit['yardstick_median_s']:.2f} s" if "yardstick_median_s" in fit else "-"
         rows.append((f"fit {fit['label']} (ratio)", f"{fit['forestlab_median_s']:.2f} s", c, ratio, "<= 4.0",
                      "<= 2.5"))
-    pt = results["per_tree"]
-    spec = PLANS[mode]["per_tree"]
-    rows.append((f"per_tree, {spec['rows']} rows x {spec['trees']} trees", f"{pt['ns_per_row_tree']:.0f} ns", "-",
-                 f"{pt['ns_per_row_tree']:.0f} ns/row-tree", "<= 300", "<= 100"))
-    oob = results["oob"]
-    spec = PLANS[mode]["oob"]
-    label = f"oob, {spec['trees']} trees n={spec['n']} (share of fit)"
-    if "skipped" in oob:
-        rows.append((label, "-", "-", f"skipped: {oob['skipped']}", "<= 20%", "<= 5%"))
-    else:
-        rows.append((label, f"{statistics.median(oob['oob_s']):.2f} s", "-", f"{oob['share_of_fit']:.1%}",
-                     "<= 20%", "<= 5%"))
-    mem = results["memory"]
-    spec = PLANS[mode]["memory"]
-    label = f"working memory, {spec['trees']} trees n={spec['n']} p={spec['p']} (x bytes of X)"
-    if "skipped" in mem:
-        rows.append((label, "-", "-", f"skipped: {mem['skipped']}", "<= 1.0", "<= 0.5"))
-    else:
-        rows.append((label, f"{mem['working_rss'] / 2**20:.0f} MiB", "-",
-                     f"{mem['x_multiple_rss']:.2f} (tracemalloc {mem['x_multiple_traced']:.2f})", "<= 1.0",
-                     "<= 0.5"))
-    rows.append(("forest storage (bytes per node)", f"{pt['bytes_per_node']:.1f}", "-",
-                 f"{pt['bytes_per_node']:.1f}", "<= 32", "<= 24"))
-    g = results["growth"]
-    rows.append((f"fit time growth n={g['small']['n']} -> {g['large']['n']} (p=10)",
-                 f"{g['small']['median_s']:.2f} -> {g['large']['median_s']:.2f} s", "-", f"{g['factor']:.1f}x",
-                 "<= 14x", f"n log n ({g['n_log_n']:.1f}x)"))
-    w = results["workers"]
-    spec = PLANS[mode]["workers"]
-    rows.append((f"workers=2 vs 1, n={spec['n']} {spec['trees']} trees (speed-up)",
-                 f"{statistics.median(w['workers1_s']):.2f} -> {statistics.median(w['workers2_s']):.2f} s", "-",
-                 f"{w['speedup']:.2f}x", ">= 1.7x", "1.9x"))
-    rows += many_class_rows.table_rows(results.get("many_class", []))
+    rows += [row for key, rows_of in _ROWS.items() if key in results for row in rows_of(results, mode)]
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
     lines = ["| " + " | ".join(c.ljust(wd) for c, wd in zip(r, widths)) + " |" for r in rows]
     lines.insert(1, "|" + "|".join("-" * (wd + 2) for wd in widths) + "|")
@@ -448,6 +416,52 @@ def table(results, mode, yardstick_note) -> str:
     if mode == "quick":
         lines.append("\nNote: --quick sizes, smaller than the targets of issue 4; run without --quick for them.")
     return "\n".join(lines)
+
+
+def _per_tree_rows(results, mode):
+    pt, spec = results["per_tree"], PLANS[mode]["per_tree"]
+    return [(f"per_tree, {spec['rows']} rows x {spec['trees']} trees", f"{pt['ns_per_row_tree']:.0f} ns", "-",
+             f"{pt['ns_per_row_tree']:.0f} ns/row-tree", "<= 300", "<= 100"),
+            ("forest storage (bytes per node)", f"{pt['bytes_per_node']:.1f}", "-", f"{pt['bytes_per_node']:.1f}",
+             "<= 32", "<= 24")]
+
+
+def _oob_rows(results, mode):
+    oob, spec = results["oob"], PLANS[mode]["oob"]
+    label = f"oob, {spec['trees']} trees n={spec['n']} (share of fit)"
+    if "skipped" in oob:
+        return [(label, "-", "-", f"skipped: {oob['skipped']}", "<= 20%", "<= 5%")]
+    return [(label, f"{statistics.median(oob['oob_s']):.2f} s", "-", f"{oob['share_of_fit']:.1%}", "<= 20%",
+             "<= 5%")]
+
+
+def _memory_rows(results, mode):
+    mem, spec = results["memory"], PLANS[mode]["memory"]
+    label = f"working memory, {spec['trees']} trees n={spec['n']} p={spec['p']} (x bytes of X)"
+    if "skipped" in mem:
+        return [(label, "-", "-", f"skipped: {mem['skipped']}", "<= 1.0", "<= 0.5")]
+    return [(label, f"{mem['working_rss'] / 2**20:.0f} MiB", "-",
+             f"{mem['x_multiple_rss']:.2f} (tracemalloc {mem['x_multiple_traced']:.2f})", "<= 1.0", "<= 0.5")]
+
+
+def _growth_rows(results, mode):
+    g = results["growth"]
+    return [(f"fit time growth n={g['small']['n']} -> {g['large']['n']} (p=10)",
+             f"{g['small']['median_s']:.2f} -> {g['large']['median_s']:.2f} s", "-", f"{g['factor']:.1f}x",
+             "<= 14x", f"n log n ({g['n_log_n']:.1f}x)")]
+
+
+def _workers_rows(results, mode):
+    w, spec = results["workers"], PLANS[mode]["workers"]
+    return [(f"workers=2 vs 1, n={spec['n']} {spec['trees']} trees (speed-up)",
+             f"{statistics.median(w['workers1_s']):.2f} -> {statistics.median(w['workers2_s']):.2f} s", "-",
+             f"{w['speedup']:.2f}x", ">= 1.7x", "1.9x")]
+
+
+#: The table's rows after the fits, in order, for the benches that ran (``--only``)
+_ROWS = {"per_tree": _per_tree_rows, "oob": _oob_rows, "memory": _memory_rows, "growth": _growth_rows,
+         "workers": _workers_rows,
+         "many_class": lambda results, mode: many_class_rows.table_rows(results["many_class"])}
 
 
 def results_markdown(results) -> str:
@@ -474,6 +488,8 @@ def main() -> None:
     ap.add_argument("--repeats", type=int, default=5, help="runs per timing (median; default 5)")
     ap.add_argument("--json", help="also write the results to this file")
     ap.add_argument("--results", help="also write the table and machine as Markdown to this file")
+    ap.add_argument("--only", help="comma-separated rows to run: fits (or words of a fit's label, e.g. "
+                    "friedman1), per_tree, oob, memory, growth, workers, many_class; default every row")
     ap.add_argument("--memory-child", help=argparse.SUPPRESS)
     ap.add_argument("--fit-child", help=argparse.SUPPRESS)
     args = ap.parse_args()
@@ -498,14 +514,19 @@ def main() -> None:
     if yardstick.note:
         log(f"  note: {yardstick.note}")
     results = {"mode": mode, "machine": info, "repeats": args.repeats, "yardstick_note": yardstick.note}
+    only = None if args.only is None else [w.strip() for w in args.only.split(",")]
+    benches = {"per_tree": lambda: bench_per_tree(plan["per_tree"], args.repeats, log),
+               "oob": lambda: bench_oob(plan["oob"], args.repeats, log),
+               "memory": lambda: bench_memory(plan["memory"], log),
+               "growth": lambda: bench_growth(plan["growth"], args.repeats, log),
+               "workers": lambda: bench_workers(plan["workers"], args.repeats, log),
+               "many_class": lambda: many_class_rows.bench(plan["many_class"], yardstick, args.repeats, log)}
     try:
-        results["fits"] = [bench_fit(row, yardstick, args.repeats, log) for row in plan["fits"]]
-        results["per_tree"] = bench_per_tree(plan["per_tree"], args.repeats, log)
-        results["oob"] = bench_oob(plan["oob"], args.repeats, log)
-        results["memory"] = bench_memory(plan["memory"], log)
-        results["growth"] = bench_growth(plan["growth"], args.repeats, log)
-        results["workers"] = bench_workers(plan["workers"], args.repeats, log)
-        results["many_class"] = many_class_rows.bench(plan["many_class"], yardstick, args.repeats, log)
+        results["fits"] = [bench_fit(row, yardstick, args.repeats, log) for row in plan["fits"]
+                           if only is None or "fits" in only or any(w in row[0] for w in only)]
+        for key, bench in benches.items():
+            if only is None or key in only:
+                results[key] = bench()
     finally:
         yardstick.close()
     results["table"] = table(results, mode, yardstick.note)
