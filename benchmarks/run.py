@@ -61,6 +61,9 @@ sys.path.insert(0, str(REPO))
 
 import forestlab as fl  # noqa: E402
 
+sys.path.insert(0, str(REPO / "benchmarks"))
+import many_class_rows  # noqa: E402  (the many-class rows of issue 17)
+
 OUT = REPO / "benchmarks" / "out"
 
 # Full sizes (issue 4) and --quick sizes of every row.
@@ -78,6 +81,7 @@ PLANS = {
         "growth": {"small": 10_000, "large": 100_000, "p": 10, "trees": 100},
         "workers": {"n": 10_000, "p": 10, "trees": 200},
         "million": "full",  # benchmarks/million_rows.py: its plan of this name (issue 17)
+        "many_class": many_class_rows.FULL,
     },
     "quick": {
         "fits": [
@@ -91,6 +95,7 @@ PLANS = {
         "growth": {"small": 2_000, "large": 20_000, "p": 10, "trees": 20},
         "workers": {"n": 10_000, "p": 10, "trees": 40},
         "million": "quick",
+        "many_class": many_class_rows.QUICK,
     },
 }
 
@@ -464,7 +469,9 @@ def _million_rows():
 
 
 _ROWS = {"per_tree": _per_tree_rows, "oob": _oob_rows, "memory": _memory_rows, "growth": _growth_rows,
-         "workers": _workers_rows, "million": lambda results, mode: _million_rows().table_rows(results["million"])}
+         "workers": _workers_rows,
+         "million": lambda results, mode: _million_rows().table_rows(results["million"]),
+         "many_class": lambda results, mode: many_class_rows.table_rows(results["many_class"])}
 
 
 def results_markdown(results) -> str:
@@ -492,7 +499,7 @@ def main() -> None:
     ap.add_argument("--json", help="also write the results to this file")
     ap.add_argument("--results", help="also write the table and machine as Markdown to this file")
     ap.add_argument("--only", help="comma-separated rows to run: fits (or words of a fit's label, e.g. "
-                    "friedman1), per_tree, oob, memory, growth, workers, million; default every row")
+                    "friedman1), per_tree, oob, memory, growth, workers, million, many_class; default every row")
     ap.add_argument("--memory-child", help=argparse.SUPPRESS)
     ap.add_argument("--fit-child", help=argparse.SUPPRESS)
     args = ap.parse_args()
@@ -524,7 +531,8 @@ def main() -> None:
                "growth": lambda: bench_growth(plan["growth"], args.repeats, log),
                "workers": lambda: bench_workers(plan["workers"], args.repeats, log),
                "million": lambda: _million_rows().bench(_million_rows().PLAN[plan["million"]], yardstick,
-                                                         args.repeats, log)}
+                                                         args.repeats, log),
+               "many_class": lambda: many_class_rows.bench(plan["many_class"], yardstick, args.repeats, log)}
     try:
         results["fits"] = [bench_fit(row, yardstick, args.repeats, log) for row in plan["fits"]
                            if only is None or "fits" in only or any(w in row[0] for w in only)]

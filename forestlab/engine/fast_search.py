@@ -31,6 +31,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts, record_sides, segment_totals
+from .many_class import ManyClassPath, many_class_applies, many_class_path
 from .presort import TrainingData
 from .running import running_sums
 from .segments import gather
@@ -111,15 +112,19 @@ class FastPath:
                                                                                              K, count)
 
 
-def fast_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uint8]) -> FastPath | None:
+def fast_path(data: TrainingData, splitter: CartSplitter,
+              counts: NDArray[np.uint8]) -> FastPath | ManyClassPath | None:
     """The specialised search for this batch, or None when only the generic one applies (user splitters,
-    more classes, missing values, categories, and case weights with two classes)."""
+    missing values, categories, case weights with two or more classes; more classes take
+    :mod:`.many_class`'s search)."""
     if data.missing or data.category_words:
         return None
     if (type(splitter) in (GiniSplitter, EntropySplitter) and data.classes == 2 and data.weights is None
             and data.stats.shape[1] == 3):
         w = counts.astype(np.int64)
         return FastPath("binary", ((w + ((w * (data.target == 1)) << 32)).ravel(),), data)
+    if many_class_applies(data, splitter):
+        return many_class_path(data, splitter, counts)
     if type(splitter) is SquaredErrorSplitter:
         weight = counts if data.weights is None else counts * data.stats[:, 0]
         first = counts * data.stats[:, 1]

@@ -1,0 +1,65 @@
+"""Each element's weight of its own class before it within its segment, for the many-class searches.
+
+The elements of a level are sorted by candidate, then value. For element ``e`` of class ``k`` in segment
+``c``, ``before[e]`` is the summed weight of the class-``k`` elements of ``c`` that precede it. With the
+class's total weight in the node, ``C_k``, it is what makes Gini's sum of squared class weights and
+entropy's sum of ``c log c`` O(1) work an element whatever the number of classes: moving ``e`` from the right
+side of a cut to the left changes only its own class's weights, from ``before[e]`` to ``before[e] + w[e]`` on
+the left and from ``C_k - before[e]`` to ``C_k - before[e] - w[e]`` on the right (see :mod:`.many_class`).
+
+One sort of ``class << bits | e`` (32-bit keys while they fit) groups the elements by class, in level order
+within each class, so the elements of one (candidate, class) pair are contiguous and in value order; one
+integer ``cumsum`` over that order, less its value at each group's start (spread over the group by a
+running maximum, the sums never decreasing), gives ``before``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import NDArray
+
+from .workspace import Workspace, scratch
+
+__all__ = ["class_ranks"]
+
+
+def class_ranks(w: NDArray, y: NDArray, cand: NDArray, classes: int, work: Workspace | None = None) -> NDArray:
+    """Per element, the weight of the elements of its class and candidate that precede it.
+
+    ``w``: integer weights (each below 256), ``y``: classes ``0..classes-1``, ``cand``: the candidate of each
+    element (non-decreasing). Sums are int32 where the level's total weight fits, else int64; the result is
+    a scratch buffer of ``work``.
+    """
+    L = w.size
+    dtype = np.int32 if L * 255 < (1 << 31) else np.int64
+    order, first = _class_groups(y, cand, classes, work)
+    wp = np.take(w, order, out=scratch(work, "cr_wp", L, dtype), mode="clip")
+    cs = np.cumsum(wp, out=scratch(work, "cr_cs", L, dtype))
+    before_p = np.subtract(cs, wp, out=wp)  # the sum before each element
+    spread = np.multiply(before_p, first, out=cs)  # ... at each group's first element, 0 elsewhere
+    np.maximum.accumulate(spread, out=spread)  # (the sums never decrease)
+    before_p -= spread
+    before = scratch(work, "cr_before", L, dtype)
+    before[order] = before_p
+    return before
+
+
+def _class_groups(y, cand, classes: int, work: Workspace | None):
+    """The elements in (class, level position) order, and where each (class, candidate) group starts."""
+    L = y.size
+    bits = max(1, (L - 1).bit_length())
+    dtype = np.uint32 if bits + max(1, (classes - 1).bit_length()) <= 32 else np.uint64
+    key = scratch(work, "cr_key", L, dtype)
+    np.left_shift(y, bits, out=key, dtype=dtype, casting="unsafe")
+    key |= np.arange(L, dtype=dtype)
+    key.sort()
+    order = np.bitwise_and(key, (1 << bits) - 1, out=scratch(work, "cr_order", L, np.intp), dtype=np.intp,
+                           casting="unsafe")
+    ordered = np.take(cand, order, out=scratch(work, "cr_cand", L, cand.dtype), mode="clip")
+    first = scratch(work, "cr_first", L, np.bool_)
+    first[0] = True
+    np.not_equal(ordered[1:], ordered[:-1], out=first[1:])
+    # where the class changes (the keys are sorted by class)
+    starts = np.searchsorted(key, np.arange(1, classes, dtype=dtype) << bits)
+    first[starts[starts < L]] = True
+    return order, first

@@ -1,0 +1,184 @@
+"""The many-class (K > 2) Gini and entropy search: O(1) work an element whatever the number of classes.
+
+Without case weights every summed statistic is an integer count. A cut's Gini needs only the side weights
+``W`` and the sums of squared class weights ``Q = sum_k c_k**2``; moving element ``e`` (class ``k``, weight
+``w``) to the left of a cut raises the left ``Q`` by ``w (2 b + w)`` and lowers the right one by ``w (2 a +
+w)``, where ``b`` and ``a`` are the class-``k`` weights before and after it in its segment
+(:func:`.class_ranks.class_ranks`). So three integer running sums (``W``, and those two increments) give
+every cut exactly: ``Q_l`` is the running sum of the first, ``Q_r`` the segment's total of the second less
+its running sum. With ``W i = W - Q / W``, a cut scores ``Q_l / W_l + Q_r / W_r``: the decrease less the
+node's ``W - Q / W`` (formed from its exact ``Q``), with three roundings whatever ``K`` (the splitter's
+generic formula rounds ``K`` squares per side), so exactly equal partitions score exactly alike.
+
+Entropy: ``W i = W log W - sum_k c_k log c_k``, and the increments are ``f(b + w) - f(b)`` and ``f(a + w) -
+f(a)`` with ``f(c) = c log c`` read from a table; these running sums are floating-point (one ``cumsum`` per
+tree, as every float sum of the engine), so scores equal the splitter's up to rounding.
+
+:func:`many_class_cut_scores` is shared by this fast path (numeric features, no missing values) and by the
+generic search for categorical candidates (:mod:`.search`).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from .class_ranks import class_ranks
+from .cuts import light_cuts, per_node, pick_cuts, record_cuts
+from .presort import TrainingData
+from .running import running_sums
+from .splitter import CartSplitter, EntropySplitter, GiniSplitter, call_splitter
+from .workspace import Workspace, scratch
+
+__all__ = ["ManyClassPath", "entropy_table", "many_class_applies", "many_class_cut_scores", "many_class_path",
+           "splitter_decrease"]
+
+
+def many_class_applies(data: TrainingData, splitter: CartSplitter) -> bool:
+    """Whether the many-class search serves: built-in Gini or entropy, more than two classes (fewer than
+    2**16), no case weights, and one-hot statistics."""
+    return (type(splitter) in (GiniSplitter, EntropySplitter) and 2 < data.classes < (1 << 16)
+            and data.weights is None and data.stats.shape[1] == 1 + data.classes)
+
+
+def many_class_path(data: TrainingData, splitter: CartSplitter, counts: NDArray[np.uint8]) -> ManyClassPath:
+    """The batch's counts and classes packed for the many-class search (``counts | class << 8``)."""
+    packed = counts.astype(np.int32) | (data.target.astype(np.int32) << 8)[None, :]
+    table = entropy_table(int(counts.sum(axis=1).max())) if type(splitter) is EntropySplitter else None
+    return ManyClassPath("many_class", (packed.ravel(),), data, table)
+
+
+def entropy_table(largest: int) -> NDArray[np.float64]:
+    """``c log c`` for every count ``c`` from 0 to ``largest + 1`` (0 at 0)."""
+    c = np.arange(largest + 2, dtype=np.float64)
+    return c * np.log(np.where(c > 0, c, 1.0))
+
+
+@dataclass(frozen=True)
+class ManyClassPath:
+    """A batch's statistics for the many-class search: ``columns[0]`` holds ``count | class << 8`` per
+    (slot, row) (int32); ``table`` is ``c log c`` for every count ``c`` (entropy; None for Gini)."""
+
+    kind: str
+    columns: tuple[NDArray, ...]
+    data: TrainingData
+    table: NDArray[np.float64] | None = None
+
+    def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, means, out,
+                    tie: float, work: Workspace | None):
+        """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
+        K = self.data.classes
+        packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
+        cell = items.node * K + (packed >> 8)
+        node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
+        column = np.take(node_class, cell, mode="clip") << 24  # and the node's weight of the item's class
+        column |= packed
+        if seg.item is None:  # gathered by statistics index: the items' values put in place
+            placed = scratch(work, "mc_placed", self.columns[0].size, np.int64)
+            placed[items.wi] = column
+            column = placed
+        index = seg.wi if seg.item is None else seg.item
+        elem = np.take(column, index, out=scratch(work, "mc_elem", index.size, np.int64), mode="clip")
+        L = elem.size
+        cand = np.right_shift(seg.code, seg.code_shift, out=scratch(work, "mc_cand", L, np.int32), casting="unsafe")
+        w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", L, np.int32), casting="unsafe")
+        y = np.bitwise_and(np.right_shift(elem, 8), 0xFFFF, out=scratch(work, "mc_y", L, np.int32), casting="unsafe")
+        class_total = np.right_shift(elem, 24, out=elem)
+        nodes, pick, decrease, sides = many_class_cut_scores(seg, cand, w, y, class_total, K, self.table, min_leaf,
+                                                             lightest, parent, tie, work)
+        chosen = seg.candidate(pick)
+        decrease = splitter_decrease(splitter, seg, chosen, pick, w, y, K, parent[nodes])
+        return record_cuts(seg, out, nodes, pick, decrease, sides[0] >= sides[1], chosen)
+
+    def sides(self, items, K: int) -> NDArray[np.float64]:
+        """Unused by this search (its node sums come from the items): zeros, shape (K, 3)."""
+        return np.zeros((K, 3))
+
+    def summaries(self, data: TrainingData, items, K: int, sides):
+        """Case weight, per-class totals, leaf value (heaviest class, lowest on ties) and purity of every
+        node, summed over its items (integer counts: exact, the same as the generic search's)."""
+        packed = np.take(self.columns[0], items.wi, mode="clip")
+        cell = items.node * data.classes + (packed >> 8)
+        by_class = np.bincount(cell, weights=packed & 0xFF, minlength=K * data.classes).reshape(K, data.classes)
+        weight = by_class.sum(axis=1)
+        totals = np.column_stack([weight, by_class])
+        pure = np.count_nonzero(by_class, axis=1) <= 1
+        return weight, totals, np.argmax(by_class, axis=1).astype(np.float64), pure
+
+
+def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min_leaf: float, lightest: float,
+                          parent, tie: float, work: Workspace | None):
+    """The best cut of every node from the elements' integer weights ``w``, classes ``y`` and their class's
+    weight in the node, ``class_total`` (sorted segments ``seg``, ``cand`` each element's candidate;
+    ``table`` as :class:`ManyClassPath`'s, None for Gini). Returns the nodes that have a cut, the cuts
+    (elements), their decreases and the side weights ``(W_l, W_r)`` of each cut; the boundaries that are no
+    valid cut are ``seg.no_cut``'s (and the segment ends)."""
+    L = w.size
+    before = class_ranks(w, y, cand, classes, work)
+    sums = scratch(work, "mc_sums", 3 * L, np.int64 if table is None else np.float64).reshape(3, L)
+    sums[0] = w
+    if table is None:  # w (2 b + w) and w (2 a + w), with a = C - b - w after the element
+        t = np.multiply(before, 2, out=scratch(work, "mc_t", L, np.int64))
+        t += w
+        np.multiply(t, w, out=sums[1])
+        np.multiply(class_total, 2, out=sums[2])
+        sums[2] -= t
+        sums[2] *= w
+    else:  # f(b + w) - f(b) and f(a + w) - f(a) = f(C - b) - f(C - b - w)
+        t = np.add(before, w, out=scratch(work, "mc_t", L, np.int64))
+        np.take(table, t, out=sums[1], mode="clip")
+        sums[1] -= np.take(table, before, mode="clip")
+        np.subtract(class_total, before, out=t)
+        np.take(table, t, out=sums[2], mode="clip")
+        t -= w
+        sums[2] -= np.take(table, t, mode="clip")
+    cs, totals = running_sums(sums, seg.start, seg.cand_tree, out=sums)
+    wl, gain_l, gain_r = cs
+    wr = _spread(seg, cand, totals[0], scratch(work, "mc_wr", L, totals.dtype))
+    wr -= wl
+    rest = _spread(seg, cand, totals[2], scratch(work, "mc_rest", L, totals.dtype))
+    rest -= gain_r  # the right side's Q (or sum of c log c)
+    light = light_cuts(seg, wl, wr, min_leaf, lightest)
+    score = scratch(work, "mc_score", L, np.float64)
+    node_first = seg.node_first
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if table is None:  # Q_l / W_l + Q_r / W_r, the decrease less the node's W - Q / W
+            np.divide(gain_l, wl, out=score)
+            score += np.divide(rest, wr, out=scratch(work, "mc_tmp", L, np.float64))
+            base = per_node(seg, parent, -totals[1, node_first] / totals[0, node_first])
+            nodes, pick, decrease = pick_cuts(seg, parent, base, tie, score, light, work)
+        else:  # the sums of c log c less W log W of each side: the decrease less the node's W i
+            np.add(gain_l, rest, out=score)
+            score -= np.take(table, wl.astype(np.int64), mode="clip")
+            score -= np.take(table, wr.astype(np.int64), mode="clip")
+            nodes, pick, decrease = pick_cuts(seg, parent, parent, tie, score, light, work)
+    return nodes, pick, decrease, (wl[pick], wr[pick])
+
+
+def _spread(seg, cand, total, out):
+    """Every element's segment total, into ``out``: repeated over long segments (12 elements or more on
+    average), else gathered by candidate."""
+    if total.size * 12 <= out.size:
+        out[:] = np.repeat(total, seg.size)
+        return out
+    return np.take(total, cand, out=out, mode="clip")
+
+
+def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent) -> NDArray[np.float64]:
+    """The decrease of each chosen cut (after element ``cut`` of candidate ``cand``) as the generic search
+    forms it, ``W_t i(t) - W_l i(l) - W_r i(r)`` from the sides' class weights with the splitter's own
+    ``impurity``, so a stored decrease does not depend on the search that found the split. One pass over the
+    chosen segments: as many elements as the nodes have items."""
+    size = seg.size[cand]
+    owner = np.repeat(np.arange(cand.size), size)
+    element = np.arange(owner.size) + np.repeat(seg.start[cand] - (np.cumsum(size) - size), size)
+    right = element > np.repeat(cut, size)
+    cell = (owner * 2 + right) * classes + np.take(y, element, mode="clip")
+    by_class = np.bincount(cell, weights=np.take(w, element, mode="clip"), minlength=cand.size * 2 * classes)
+    S = np.empty((cand.size, 2, 1 + classes))
+    S[..., 1:] = by_class.reshape(cand.size, 2, classes)
+    S[..., 0] = S[..., 1:].sum(axis=-1)
+    impurity = call_splitter(splitter, "impurity", S)
+    return parent - S[:, 0, 0] * impurity[:, 0] - S[:, 1, 0] * impurity[:, 1]
