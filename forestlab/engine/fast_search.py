@@ -1,7 +1,7 @@
 """Fast paths of the exact best-split search for the built-in splitters (no missing values or categories).
 
-Both score the elements of the sorted segments and mask the boundaries that are no valid cut, which saves
-the gathers at the cuts, and keep their large temporaries in the batch's scratch buffers.
+Both score the elements of the sorted segments, mask the boundaries that are no valid cut (no gathers at
+the cuts) and keep large temporaries in the batch's scratch buffers; many classes: ``many_class.py``.
 
 *Two classes* (Gini or entropy, no case weights): every summed statistic is an integer count, so the two
 channels the search needs, the bootstrap weight ``W`` and the class-1 count ``c1``, travel packed in one int64
@@ -10,9 +10,8 @@ Entropy is computed with the entropy splitter's own operations. Gini uses ``W i 
 c1**2 / W)``, so a cut scores ``c1_l**2 / W_l + c1_r**2 / W_r`` (two divisions per element), half the
 decrease plus the node's ``c1**2 / W``; equal to the generic value up to rounding. Where ``min_leaf`` cannot
 bind, only the cuts between cases of different classes are scored (:func:`_class_changes`, with ties
-:func:`_class_boundaries`: no other cut can be best). Scores are formed relative to the node, so the chosen
-split can differ from the generic search's only between splits whose scores differ by about the tie
-tolerance.
+:func:`_class_boundaries`: no other cut can be best). Scores are relative to the node, so the chosen split
+can differ from the generic search's only between splits whose scores differ by about the tie tolerance.
 
 *Squared error*: the running sums of the case weight and of the weighted target, centred on each node's
 mean, only (no second moment), and the decrease ``W * S_l**2 / (W_l * W_r)`` (the classic ``S_l**2 / W_l +
