@@ -21,7 +21,8 @@ Passes:
 * ``gather``: the statistics of every sorted element (``FastPath.best_splits`` less the search below it);
 * ``cumsum``: running sums (``running_sums``, ``_sums_at``);
 * ``class changes``: the two-class search's cut positions (``_class_changes``);
-* ``segment totals``, ``light cuts``: as named in ``cuts.py``;
+* ``segment totals``, ``light cuts``: as named in ``cuts.py`` (the squared-error search forms both inside its
+  scoring, in pieces: counted under ``score``);
 * ``score``: the impurity arithmetic (what remains of the fast search);
 * ``pick``: the best cut per node (``pick_cuts``), ``record``: writing it (``record_cuts``, ``record_sides``);
 * ``partition``: children of every item (``grow._partition``), ``subset``: open items of a level
@@ -48,7 +49,7 @@ REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO))
 
 import forestlab as fl  # noqa: E402
-from forestlab.engine import fast_search, grow, search, segments  # noqa: E402
+from forestlab.engine import fast_search, grow, search, segments, squared_error  # noqa: E402
 
 sys.path.insert(0, str(REPO / "benchmarks"))
 from run import PLANS, forestlab_target, machine, make_data  # noqa: E402
@@ -62,6 +63,8 @@ WRAPPED = [
     (fast_search.FastPath, "best_splits", "gather"),
     (fast_search, "binary_best_splits", "score"), (fast_search, "squared_error_best_splits", "score"),
     (fast_search, "running_sums", "cumsum"), (fast_search, "_sums_at", "cumsum"),
+    (squared_error, "running_sums", "cumsum"), (squared_error, "pick_cuts", "pick"),
+    (squared_error, "record_cuts", "record"), (squared_error, "record_sides", "record"),
     (fast_search, "_class_changes", "class changes"), (fast_search, "_class_boundaries", "class changes"),
     (fast_search, "segment_totals", "segment totals"), (fast_search, "light_cuts", "light cuts"),
     (fast_search, "pick_cuts", "pick"), (fast_search, "record_cuts", "record"),

@@ -12,7 +12,8 @@ from numpy.typing import NDArray
 
 from .workspace import Workspace, scratch
 
-__all__ = ["light_cuts", "per_node", "pick_cuts", "record_cuts", "record_sides", "segment_totals"]
+__all__ = ["light_cuts", "light_reach", "per_node", "pick_cuts", "record_cuts", "record_sides", "segment_ends",
+           "segment_totals"]
 
 
 def light_cuts(seg, wl, wr, min_leaf: float, lightest: float):
@@ -25,14 +26,27 @@ def light_cuts(seg, wl, wr, min_leaf: float, lightest: float):
     """
     if min_leaf <= lightest:
         return None
-    reach = int(np.ceil(min_leaf / lightest))
-    L, C = wl.size, seg.start.size
-    if 4 * C * (2 * reach + 1) >= L:
+    reach = light_reach(seg, wl.size, min_leaf, lightest)
+    if reach == 0:
         return np.minimum(wl, wr) < min_leaf
+    ends = segment_ends(seg, reach)
+    return ends[np.minimum(wl[ends], wr[ends]) < min_leaf]
+
+
+def light_reach(seg, L: int, min_leaf: float, lightest: float) -> int:
+    """How many elements at each end of a segment :func:`light_cuts` checks (``r = ceil(min_leaf /
+    lightest)``), or 0 where every element is checked (segments short beside ``r``); ``min_leaf >
+    lightest``."""
+    reach = int(np.ceil(min_leaf / lightest))
+    return 0 if 4 * seg.start.size * (2 * reach + 1) >= L else reach
+
+
+def segment_ends(seg, reach: int) -> NDArray[np.int64]:
+    """The first ``reach`` and the last ``reach + 1`` elements of every segment (each once where they
+    overlap: first ones, then last ones)."""
     lead = seg.start[:, None] + np.arange(reach)
     trail = (seg.start + seg.size - 1)[:, None] - np.arange(reach + 1)
-    ends = np.concatenate([lead[lead < (seg.start + seg.size)[:, None]], trail[trail >= seg.start[:, None]]])
-    return ends[np.minimum(wl[ends], wr[ends]) < min_leaf]
+    return np.concatenate([lead[lead < (seg.start + seg.size)[:, None]], trail[trail >= seg.start[:, None]]])
 
 
 def segment_totals(seg, total: NDArray, work: Workspace | None = None, out: NDArray | None = None) -> NDArray:

@@ -35,6 +35,7 @@ from .presort import TrainingData
 from .running import running_sums
 from .segments import gather
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
+from .squared_error import squared_error_best_splits
 from .workspace import Workspace, scratch
 
 __all__ = ["FastPath", "binary_best_splits", "fast_path", "squared_error_best_splits"]
@@ -314,37 +315,3 @@ def _half_gini_score(W, c1, out):
     np.square(out, out=out)
     out /= W
     return out
-
-
-def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, parent, out, tie: float,
-                              work: Workspace | None):
-    """As :func:`binary_best_splits` for the squared-error splitter, from the case weight ``W`` and the
-    weighted target ``S``, centred on the mean of the element's node, of the elements, packed as
-    ``W + 1j * S`` (``elem``, overwritten).
-
-    The decrease of the within-node sum of squares of a cut is ``S_l**2 / W_l + S_r**2 / W_r - S**2 / W``
-    (Breiman et al. 1984, section 8.3) for any centring of the target; centred on the node's mean, ``S`` is
-    0, so ``S_r = -S_l`` and the decrease is ``W * S_l**2 / (W_l * W_r)``: no right sums, no difference of
-    large terms (so it is also more accurate where the decrease is small beside ``S**2 / W``). The centred
-    values of a node sum to their rounding residue rather than to 0 exactly (about ``1e-16`` of the summed
-    ``|S|``), which enters the score at that size. Equal to the squared-error splitter's score up to
-    rounding. Only the running sums of ``W`` (integers without case weights: exact) and ``S`` are needed.
-    """
-    L = elem.size
-    left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
-    left_w, left_s = left.real, left.imag
-    right_w = segment_totals(seg, total.real, work)  # every element's segment weight, then less the left's
-    right_w -= left_w
-    light = light_cuts(seg, left_w, right_w, min_leaf, lightest)
-    with np.errstate(divide="ignore", invalid="ignore"):  # (segment ends: masked by the pick)
-        score = np.square(left_s, out=scratch(work, "score", L, np.float64))
-        score /= np.multiply(left_w, right_w, out=scratch(work, "tmp1", L, np.float64))
-    weight = total.real[seg.node_first]  # the decrease is W * score: picked on score, at the node's scale
-    scale = per_node(seg, parent, 1.0 / weight)
-    nodes, pick, decrease = pick_cuts(seg, parent * scale, np.zeros_like(parent), tie, score, light, work)
-    decrease /= scale[nodes]
-    none = np.zeros(pick.size)
-    cand = seg.candidate(pick)
-    lw, rw = left_w[pick], right_w[pick]
-    record_sides(seg, out, nodes, pick, cand, (lw, none), (rw, none))
-    return record_cuts(seg, out, nodes, pick, decrease, lw >= rw, cand)
