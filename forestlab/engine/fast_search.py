@@ -1,7 +1,8 @@
 """Fast paths of the exact best-split search for the built-in splitters (no missing values or categories).
 
 Both score the elements of the sorted segments, mask the boundaries that are no valid cut (no gathers at
-the cuts) and keep large temporaries in the batch's scratch buffers; many classes: ``many_class.py``.
+the cuts) and keep large temporaries in the batch's scratch buffers; many classes: ``many_class.py``;
+the squared-error search itself is in ``squared_error.py``.
 
 *Two classes* (Gini or entropy, no case weights): every summed statistic is an integer count, so the two
 channels the search needs, the bootstrap weight ``W`` and the class-1 count ``c1``, travel packed in one int64
