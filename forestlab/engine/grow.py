@@ -176,14 +176,14 @@ def _search_open(data, rules, gens, subspace, batch, sub_items, node_tree, total
 
 def _items_of(items: Items, keep: NDArray[np.bool_]) -> Items:
     """The items of the nodes where ``keep`` is True, those nodes numbered among themselves in order."""
-    subset = items.take(np.flatnonzero(np.take(keep, items.node, mode="clip")))
-    subset.node = np.take(np.cumsum(keep) - 1, subset.node, mode="clip")
+    subset = Items(items.row, items.node, items.wi)
+    _narrow(subset, keep)
     return subset
 
 
 def _narrow(items: Items, keep: NDArray[np.bool_]) -> None:
     """:func:`_items_of` in place: ``items`` holds afterwards only the items of the nodes where ``keep`` is
-    True, numbered among themselves (the arrays it held are released one by one)."""
+    True, those nodes numbered among themselves (the arrays it held are released one by one)."""
     kept = np.flatnonzero(np.take(keep, items.node, mode="clip"))
     one = items.wi is items.row  # (one tree: the same array)
     items.row = np.take(items.row, kept, mode="clip")  # one array at a time, each released once replaced

@@ -146,14 +146,20 @@ def leaf_index(tree: Tree, X: NDArray[np.float64], missing: bool | None = None) 
     if missing or tree.category_left.shape[1]:
         return _leaf_index_general(tree, X, missing)
     node = np.empty(X.shape[0], dtype=np.int64)
-    step = _numeric_steps(tree)
-    for lo in range(0, X.shape[0], _BLOCK_ROWS):
-        hi = min(lo + _BLOCK_ROWS, X.shape[0])
-        node[lo:hi] = _descend(step, X[lo:hi])
+    for rows, leaves in _numeric_leaf_blocks(tree, X):
+        node[rows] = leaves
     return node
 
 
 _BLOCK_ROWS = 16384  # rows pushed down together: every temporary of a block stays in the cache
+
+
+def _numeric_leaf_blocks(tree: Tree, X: NDArray[np.float64]):
+    """``(rows, leaves)`` for every block of ``_BLOCK_ROWS`` rows of ``X`` (no NaN, no categorical splits):
+    the slice of the block and the leaf each of its rows reaches."""
+    step = _numeric_steps(tree)
+    for lo in range(0, X.shape[0], _BLOCK_ROWS):
+        yield slice(lo, lo + _BLOCK_ROWS), _descend(step, X[lo:lo + _BLOCK_ROWS])
 
 
 def _numeric_steps(tree: Tree):
@@ -208,9 +214,8 @@ def tree_values(trees: Sequence[Tree], X: NDArray[np.float64], dtype: type) -> N
         if missing or tree.category_left.shape[1]:
             out[b] = np.take(tree.value, leaf_index(tree, X, missing), mode="clip")
             continue
-        step = _numeric_steps(tree)  # a block of rows at a time, straight into the table (no (n,) leaves)
-        for lo in range(0, X.shape[0], _BLOCK_ROWS):
-            out[b, lo:lo + _BLOCK_ROWS] = np.take(tree.value, _descend(step, X[lo:lo + _BLOCK_ROWS]), mode="clip")
+        for rows, leaves in _numeric_leaf_blocks(tree, X):  # straight into the table (no (n,) leaves)
+            out[b, rows] = np.take(tree.value, leaves, mode="clip")
     return out
 
 
