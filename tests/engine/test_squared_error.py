@@ -1,7 +1,8 @@
 """The squared-error search scores a level in pieces of whole segments (``squared_error._SCORE_RUN``
 elements at a time): the pieces must change nothing, so forests grown with pieces of a few elements (every
 segment a piece of its own, segments longer than a piece, the short-segment gather and both ways of
-checking ``min_leaf``, levels with and without ties) equal those grown with the default pieces bit for bit, with and without case weights.
+checking ``min_leaf``, levels with and without ties) equal those grown with the default pieces bit for bit,
+with and without case weights.
 """
 
 from __future__ import annotations
