@@ -450,7 +450,7 @@ def _growth_rows(results, mode):
     g = results["growth"]
     return [(f"fit time growth n={g['small']['n']} -> {g['large']['n']} (p=10)",
              f"{g['small']['median_s']:.2f} -> {g['large']['median_s']:.2f} s", "-", f"{g['factor']:.1f}x",
-             "<= 14x", f"n log n ({g['n_log_n']:.1f}x)")]
+             "<= 13x", f"n log n ({g['n_log_n']:.1f}x)")]
 
 
 def _workers_rows(results, mode):
