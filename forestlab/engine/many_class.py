@@ -25,15 +25,16 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from .class_ranks import class_ranks
+from .class_ranks import class_ranks, class_weight_through
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts
 from .presort import TrainingData
 from .running import running_sums
+from .segments import gather
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, call_splitter
 from .workspace import Workspace, scratch
 
-__all__ = ["ManyClassPath", "entropy_table", "many_class_applies", "many_class_cut_scores", "many_class_path",
-           "splitter_decrease"]
+__all__ = ["ManyClassPath", "entropy_table", "gini_class_changes", "many_class_applies", "many_class_cut_scores",
+           "many_class_path", "splitter_decrease"]
 
 
 def many_class_applies(data: TrainingData, splitter: CartSplitter) -> bool:
@@ -73,6 +74,11 @@ class ManyClassPath:
         packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
         cell = items.node * K + (packed >> 8)
         node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
+        if self.table is None and seg.no_cut is None and min_leaf <= lightest:
+            elem = (np.take(self.columns[0], seg.wi, out=scratch(work, "mc_elem32", seg.wi.size, np.int32),
+                            mode="clip") if seg.item is None else
+                    gather(packed, seg.item, scratch(work, "mc_elem32", seg.item.size, np.int32)))
+            return gini_class_changes(seg, splitter, elem, node_class, K, parent, out, tie, work)
         column = np.take(node_class, cell, mode="clip") << 24  # and the node's weight of the item's class
         column |= packed
         if seg.item is None:  # gathered by statistics index: the items' values put in place
@@ -155,6 +161,74 @@ def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min
             score -= np.take(table, wr.astype(np.int64), mode="clip")
             nodes, pick, decrease = pick_cuts(seg, parent, parent, tie, score, light, work)
     return nodes, pick, decrease, (wl[pick], wr[pick])
+
+
+def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: int, parent, out, tie: float,
+                       work: Workspace | None):
+    """:meth:`ManyClassPath.best_splits` for Gini on a tie-free level where ``min_leaf`` cannot bind: only the
+    cuts where the class changes are scored, from sums over the runs of one class.
+
+    ``elem`` holds every element's ``count | class << 8`` (int32, overwritten), ``node_class`` the weight of
+    every (node, class). Along a run of one class the Gini score is a strictly convex function of the weight
+    moved left (``u + 2 d + (A + d**2) / u`` on each side, ``u`` the side's weight), and the decrease is 0 at
+    a segment's ends, so no cut inside a run is best (Fayyad & Irani 1992, Theorem 1, for any number of
+    classes; as :func:`.fast_search._class_changes` for two). A run of class ``k`` and weight ``r`` preceded
+    by ``b`` of its class in the segment adds ``r (2 b + r)`` to the left ``Q`` and takes ``r (2 a + r)``,
+    ``a = C_k - b - r``, from the right one: the same integers the elements add one by one, so each scored
+    cut scores as in :func:`many_class_cut_scores` bit for bit, and the class ranks sort the runs only.
+    """
+    L = elem.size
+    wide = np.int32 if L * 255 < (1 << 31) else np.int64
+    w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", L, np.int32))
+    y = np.right_shift(elem, 8, out=elem)
+    change = scratch(work, "mc_change", L, np.bool_)
+    np.not_equal(y[1:], y[:-1], out=change[:-1])
+    seg_end = seg.start + seg.size - 1
+    change[seg_end] = True
+    ends = np.flatnonzero(change)  # the last element of every run of one class in a segment
+    upto = np.take(np.cumsum(w, dtype=wide, out=scratch(work, "mc_cw", L, wide)), ends, mode="clip")
+    run_w = np.empty_like(upto)  # every run's weight (runs never cross segments)
+    run_w[0] = upto[0]
+    np.subtract(upto[1:], upto[:-1], out=run_w[1:])
+    run_y = np.take(y, ends, mode="clip")
+    last = np.searchsorted(ends, seg_end)  # (C,) the run ending each segment
+    runs = np.diff(last, prepend=-1)
+    run_cand = np.repeat(np.arange(last.size), runs)
+    cell = np.take(seg.cand_node, run_cand, mode="clip") * classes + run_y
+    class_total = np.take(node_class, cell, mode="clip")
+    ncand = np.bincount(seg.cand_node, minlength=node_class.size // classes)
+    place = np.arange(last.size) - (np.cumsum(ncand) - ncand)[seg.cand_node]
+    through = class_weight_through(run_w, run_y, cell, np.take(place, run_cand, mode="clip"), class_total,
+                                   node_class, ncand, classes, work)
+    R = ends.size
+    sums = np.empty((2, R), dtype=np.int64)  # r (2 b + r) = r (2 s - r) and r (2 a + r) = r (2 (C - s) + r)
+    np.multiply(through, 2, out=sums[0])  # with s = b + r the class's weight through the run
+    sums[0] -= run_w
+    sums[0] *= run_w
+    np.subtract(class_total, through, out=sums[1])
+    sums[1] *= 2
+    sums[1] += run_w
+    sums[1] *= run_w
+    cs, totals = running_sums(sums, last - runs + 1, seg.cand_tree, out=sums)
+    level_w = np.take(upto, last, mode="clip")  # the level's weight up to each segment's end
+    wr = np.take(level_w, run_cand, mode="clip")
+    wr -= upto
+    preceding = np.zeros_like(level_w)  # ... and before each segment
+    preceding[1:] = level_w[:-1]
+    wl = upto - np.take(preceding, run_cand, mode="clip")
+    q_r = np.take(totals[1], run_cand, mode="clip")
+    q_r -= cs[1]  # the right side's Q
+    score = np.empty(R)
+    node_first = seg.node_first
+    with np.errstate(divide="ignore", invalid="ignore"):
+        np.divide(cs[0], wl, out=score)
+        score += q_r / wr
+        score[last] = -np.inf  # the segments' ends
+        base = per_node(seg, parent, -totals[1, node_first] / (level_w - preceding)[node_first])
+        nodes, pick, _ = pick_cuts(seg, parent, base, tie, score, None, work, ends)
+    cand, element = run_cand[pick], ends[pick]
+    decrease = splitter_decrease(splitter, seg, cand, element, w, y, classes, parent[nodes])
+    return record_cuts(seg, out, nodes, element, decrease, wl[pick] >= wr[pick], cand)
 
 
 def _spread(seg, cand, total, out):
