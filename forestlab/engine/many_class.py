@@ -193,41 +193,47 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     run_y = np.take(y, ends, mode="clip")
     last = np.searchsorted(ends, seg_end)  # (C,) the run ending each segment
     runs = np.diff(last, prepend=-1)
+    first = last - runs + 1
     run_cand = np.repeat(np.arange(last.size), runs)
-    cell = np.take(seg.cand_node, run_cand, mode="clip") * classes + run_y
+    by_node = node_class.reshape(-1, classes)
+    ncand = np.bincount(seg.cand_node, minlength=by_node.shape[0])
+    place = np.arange(last.size) - (np.cumsum(ncand) - ncand)[seg.cand_node]  # among the node's candidates
+    at = np.take(np.stack([seg.cand_node * classes, place], axis=1), run_cand, axis=0, mode="clip")
+    cell = at[:, 0] + run_y
     class_total = np.take(node_class, cell, mode="clip")
-    ncand = np.bincount(seg.cand_node, minlength=node_class.size // classes)
-    place = np.arange(last.size) - (np.cumsum(ncand) - ncand)[seg.cand_node]
-    through = class_weight_through(run_w, run_y, cell, np.take(place, run_cand, mode="clip"), class_total,
-                                   node_class, ncand, classes, work)
+    through = class_weight_through(run_w, run_y, cell, at[:, 1], class_total, node_class, ncand, classes, work)
+    seg_w = np.take(by_node.sum(axis=1), seg.cand_node, mode="clip")
+    seg_q = np.take(np.square(by_node).sum(axis=1), seg.cand_node, mode="clip")  # the node's Q
+    # Q_l, Q_r, W_l, W_r as four integer running sums over the level, restarted at every segment: the left
+    # ones less the previous segment's total at its first run, the right ones from the segment's total
+    # down (the previous segment's right sums end at 0)
     R = ends.size
-    sums = np.empty((2, R), dtype=np.int64)  # r (2 b + r) = r (2 s - r) and r (2 a + r) = r (2 (C - s) + r)
-    np.multiply(through, 2, out=sums[0])  # with s = b + r the class's weight through the run
+    sums = np.empty((4, R), dtype=np.int64)
+    np.multiply(through, 2, out=sums[0])  # r (2 b + r) = r (2 s - r), s = b + r the class's weight through
     sums[0] -= run_w
     sums[0] *= run_w
-    np.subtract(class_total, through, out=sums[1])
+    np.subtract(through, class_total, out=sums[1])  # -r (2 a + r) = r (2 (s - C) - r), a = C - s after
     sums[1] *= 2
-    sums[1] += run_w
+    sums[1] -= run_w
     sums[1] *= run_w
-    cs, totals = running_sums(sums, last - runs + 1, seg.cand_tree, out=sums)
-    level_w = np.take(upto, last, mode="clip")  # the level's weight up to each segment's end
-    wr = np.take(level_w, run_cand, mode="clip")
-    wr -= upto
-    preceding = np.zeros_like(level_w)  # ... and before each segment
-    preceding[1:] = level_w[:-1]
-    wl = upto - np.take(preceding, run_cand, mode="clip")
-    q_r = np.take(totals[1], run_cand, mode="clip")
-    q_r -= cs[1]  # the right side's Q
-    score = np.empty(R)
+    sums[2] = run_w
+    np.negative(run_w, out=sums[3])
+    sums[0, first[1:]] -= seg_q[:-1]
+    sums[1, first] += seg_q
+    sums[2, first[1:]] -= seg_w[:-1]
+    sums[3, first] += seg_w
+    q_l, q_r, wl, wr = np.cumsum(sums, axis=1, out=sums)
+    score = scratch(work, "mc_score", R, np.float64)
     node_first = seg.node_first
     with np.errstate(divide="ignore", invalid="ignore"):
-        np.divide(cs[0], wl, out=score)
-        score += q_r / wr
+        np.divide(q_l, wl, out=score)
+        score += np.divide(q_r, wr, out=scratch(work, "mc_tmp", R, np.float64))
         score[last] = -np.inf  # the segments' ends
-        base = per_node(seg, parent, -totals[1, node_first] / (level_w - preceding)[node_first])
+        base = per_node(seg, parent, -seg_q[node_first] / seg_w[node_first])
         nodes, pick, _ = pick_cuts(seg, parent, base, tie, score, None, work, ends)
     cand, element = run_cand[pick], ends[pick]
-    decrease = splitter_decrease(splitter, seg, cand, element, w, y, classes, parent[nodes])
+    decrease = splitter_decrease(splitter, seg, cand, element, w, y, classes, parent[nodes],
+                                 node_class.reshape(-1, classes)[nodes])
     return record_cuts(seg, out, nodes, element, decrease, wl[pick] >= wr[pick], cand)
 
 
@@ -240,19 +246,36 @@ def _spread(seg, cand, total, out):
     return np.take(total, cand, out=out, mode="clip")
 
 
-def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent) -> NDArray[np.float64]:
+def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent,
+                      node_class=None) -> NDArray[np.float64]:
     """The decrease of each chosen cut (after element ``cut`` of candidate ``cand``) as the generic search
     forms it, ``W_t i(t) - W_l i(l) - W_r i(r)`` from the sides' class weights with the splitter's own
     ``impurity``, so a stored decrease does not depend on the search that found the split. One pass over the
-    chosen segments: as many elements as the nodes have items."""
+    chosen segments: as many elements as the nodes have items; given the nodes' class weights
+    ``node_class`` (chosen nodes x classes, integers), over the smaller side of each cut only, the other
+    side being the node's weights less those (exact: integer counts)."""
     size = seg.size[cand]
-    owner = np.repeat(np.arange(cand.size), size)
-    element = np.arange(owner.size) + np.repeat(seg.start[cand] - (np.cumsum(size) - size), size)
-    right = element > np.repeat(cut, size)
-    cell = (owner * 2 + right) * classes + np.take(y, element, mode="clip")
-    by_class = np.bincount(cell, weights=np.take(w, element, mode="clip"), minlength=cand.size * 2 * classes)
+    if node_class is None:
+        first, count = seg.start[cand], size
+    else:
+        left = cut - seg.start[cand] + 1
+        small_left = 2 * left <= size
+        first, count = np.where(small_left, seg.start[cand], cut + 1), np.where(small_left, left, size - left)
+    owner = np.repeat(np.arange(cand.size), count)
+    element = np.arange(owner.size) + np.repeat(first - (np.cumsum(count) - count), count)
+    if node_class is None:
+        owner = owner * 2 + (element > np.repeat(cut, count))
+    cell = owner * classes + np.take(y, element, mode="clip")
+    by_class = np.bincount(cell, weights=np.take(w, element, mode="clip"),
+                           minlength=cand.size * (2 if node_class is None else 1) * classes)
     S = np.empty((cand.size, 2, 1 + classes))
-    S[..., 1:] = by_class.reshape(cand.size, 2, classes)
+    if node_class is None:
+        S[..., 1:] = by_class.reshape(cand.size, 2, classes)
+    else:
+        counted = by_class.reshape(cand.size, classes)
+        other = node_class - counted
+        S[:, 0, 1:] = np.where(small_left[:, None], counted, other)
+        S[:, 1, 1:] = np.where(small_left[:, None], other, counted)
     S[..., 0] = S[..., 1:].sum(axis=-1)
     impurity = call_splitter(splitter, "impurity", S)
     return parent - S[:, 0, 0] * impurity[:, 0] - S[:, 1, 0] * impurity[:, 1]
