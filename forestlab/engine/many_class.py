@@ -232,9 +232,10 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
         base = per_node(seg, parent, -seg_q[node_first] / seg_w[node_first])
         nodes, pick, _ = pick_cuts(seg, parent, base, tie, score, None, work, ends)
     cand, element = run_cand[pick], ends[pick]
+    sides = wl[pick], wr[pick]
     decrease = splitter_decrease(splitter, seg, cand, element, w, y, classes, parent[nodes],
-                                 node_class.reshape(-1, classes)[nodes])
-    return record_cuts(seg, out, nodes, element, decrease, wl[pick] >= wr[pick], cand)
+                                 node_class.reshape(-1, classes)[nodes], sides)
+    return record_cuts(seg, out, nodes, element, decrease, sides[0] >= sides[1], cand)
 
 
 def _spread(seg, cand, total, out):
@@ -246,14 +247,15 @@ def _spread(seg, cand, total, out):
     return np.take(total, cand, out=out, mode="clip")
 
 
-def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent,
-                      node_class=None) -> NDArray[np.float64]:
+def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent, node_class=None,
+                      sides=None) -> NDArray[np.float64]:
     """The decrease of each chosen cut (after element ``cut`` of candidate ``cand``) as the generic search
     forms it, ``W_t i(t) - W_l i(l) - W_r i(r)`` from the sides' class weights with the splitter's own
     ``impurity``, so a stored decrease does not depend on the search that found the split. One pass over the
     chosen segments: as many elements as the nodes have items; given the nodes' class weights
-    ``node_class`` (chosen nodes x classes, integers), over the smaller side of each cut only, the other
-    side being the node's weights less those (exact: integer counts)."""
+    ``node_class`` (chosen nodes x classes) and the sides' weights ``sides`` (integers), over the smaller side
+    of each cut only, the other side being the node's weights less those (exact: integer counts, whose sums
+    do not depend on their order)."""
     size = seg.size[cand]
     if node_class is None:
         first, count = seg.start[cand], size
@@ -271,11 +273,13 @@ def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int
     S = np.empty((cand.size, 2, 1 + classes))
     if node_class is None:
         S[..., 1:] = by_class.reshape(cand.size, 2, classes)
+        S[..., 0] = S[..., 1:].sum(axis=-1)
     else:
         counted = by_class.reshape(cand.size, classes)
-        other = node_class - counted
-        S[:, 0, 1:] = np.where(small_left[:, None], counted, other)
-        S[:, 1, 1:] = np.where(small_left[:, None], other, counted)
-    S[..., 0] = S[..., 1:].sum(axis=-1)
+        S[:, 0, 1:] = counted
+        np.subtract(node_class, counted, out=S[:, 1, 1:])
+        swap = np.flatnonzero(~small_left)  # there the right side was counted
+        S[swap, :, 1:] = S[swap, ::-1, 1:]
+        S[:, 0, 0], S[:, 1, 0] = sides
     impurity = call_splitter(splitter, "impurity", S)
     return parent - S[:, 0, 0] * impurity[:, 0] - S[:, 1, 0] * impurity[:, 1]
