@@ -71,9 +71,9 @@ def class_weight_through(w: NDArray, y: NDArray, cell: NDArray, place: NDArray, 
     """:func:`class_ranks` plus ``w`` for the runs of one class of a level (or its elements), from the node
     sums: per run, the weight of its class in its segment up to and including it.
 
-    ``w``: integer weights; ``y``: classes (below ``2**16``); ``cell``: ``node * classes + y``, the run's
-    (node, class); ``place``: its candidate's position among its node's candidates; ``class_total``:
-    ``node_class[cell]``; ``node_class``: the weight of every (node, class) of the level (int64);
+    ``w``: integer weights; ``y``: classes (below ``2**16``); ``cell``: ``y * nodes + node``, the run's
+    (class, node); ``place``: its candidate's position among its node's candidates; ``class_total``:
+    ``node_class[cell]``; ``node_class``: the weight of every (class, node) of the level, class-major (int64);
     ``ncand``: candidates per node. Runs are in level order (node, candidate, value).
 
     One stable sort of the classes (a radix sort of ``uint8`` or ``uint16``) puts the runs in (class, node,
@@ -84,19 +84,17 @@ def class_weight_through(w: NDArray, y: NDArray, cell: NDArray, place: NDArray, 
     class's weight in the node. No group starts are searched or spread.
     """
     R = w.size
-    total = node_class.sum(dtype=np.int64) * max(1, int(ncand.max(initial=1)))
-    dtype = np.int32 if total < (1 << 31) else np.int64
+    nodes = ncand.size
+    grid = np.multiply(node_class.reshape(-1, nodes), ncand, out=scratch(work, "cr_grid", node_class.size,
+                                                                         np.int64).reshape(-1, nodes)).ravel()
+    base = np.cumsum(grid, out=scratch(work, "cr_base", grid.size, np.int64))
+    base -= grid  # (exclusive)
+    dtype = np.int32 if base[-1] + grid[-1] < (1 << 31) else np.int64
     order = np.argsort(y.astype(np.uint8 if classes <= 256 else np.uint16), kind="stable")
     wp = np.take(w, order, out=scratch(work, "cr_wp", R, dtype), mode="clip")
     np.cumsum(wp, out=wp)
     through = scratch(work, "cr_before", R, dtype)
     through[order] = wp
-    nodes = ncand.size
-    grid = node_class.reshape(nodes, classes) * ncand[:, None]
-    flat = grid.T.flatten()  # (class, node) order (a copy)
-    base = np.cumsum(flat, out=flat)
-    base -= grid.T.ravel()
-    base = base.reshape(classes, nodes).T.ravel()  # back to (node, class) cells
-    through -= np.take(base, cell, mode="clip").astype(dtype, copy=False)
-    through -= (place * class_total).astype(dtype, copy=False)
+    through -= np.take(base, cell, mode="clip")
+    through -= place * class_total
     return through

@@ -72,13 +72,15 @@ class ManyClassPath:
         """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
         K = self.data.classes
         packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
-        cell = items.node * K + (packed >> 8)
-        node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
         if self.table is None and seg.no_cut is None and min_leaf <= lightest:
+            cell = (packed >> 8) * parent.size + items.node  # class-major (class, node) cells
+            node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
             elem = (np.take(self.columns[0], seg.wi, out=scratch(work, "mc_elem32", seg.wi.size, np.int32),
                             mode="clip") if seg.item is None else
                     gather(packed, seg.item, scratch(work, "mc_elem32", seg.item.size, np.int32)))
             return gini_class_changes(seg, splitter, elem, node_class, K, parent, out, tie, work)
+        cell = items.node * K + (packed >> 8)
+        node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
         column = np.take(node_class, cell, mode="clip") << 24  # and the node's weight of the item's class
         column |= packed
         if seg.item is None:  # gathered by statistics index: the items' values put in place
@@ -169,7 +171,7 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     cuts where the class changes are scored, from sums over the runs of one class.
 
     ``elem`` holds every element's ``count | class << 8`` (int32, overwritten), ``node_class`` the weight of
-    every (node, class). Along a run of one class the Gini score is a strictly convex function of the weight
+    every (class, node), class-major. Along a run of one class the Gini score is a strictly convex function of the weight
     moved left (``u + 2 d + (A + d**2) / u`` on each side, ``u`` the side's weight), and the decrease is 0 at
     a segment's ends, so no cut inside a run is best (Fayyad & Irani 1992, Theorem 1, for any number of
     classes; as :func:`.fast_search._class_changes` for two). A run of class ``k`` and weight ``r`` preceded
@@ -195,15 +197,17 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     runs = np.diff(last, prepend=-1)
     first = last - runs + 1
     run_cand = np.repeat(np.arange(last.size), runs)
-    by_node = node_class.reshape(-1, classes)
-    ncand = np.bincount(seg.cand_node, minlength=by_node.shape[0])
+    by_class = node_class.reshape(classes, -1)  # (class, node)
+    nodes = by_class.shape[1]
+    ncand = np.bincount(seg.cand_node, minlength=nodes)
     place = np.arange(last.size) - (np.cumsum(ncand) - ncand)[seg.cand_node]  # among the node's candidates
-    at = np.take(np.stack([seg.cand_node * classes, place], axis=1), run_cand, axis=0, mode="clip")
-    cell = at[:, 0] + run_y
+    at = np.take(np.stack([seg.cand_node, place], axis=1), run_cand, axis=0, mode="clip")
+    cell = run_y * nodes
+    cell += at[:, 0]
     class_total = np.take(node_class, cell, mode="clip")
     through = class_weight_through(run_w, run_y, cell, at[:, 1], class_total, node_class, ncand, classes, work)
-    seg_w = np.take(by_node.sum(axis=1), seg.cand_node, mode="clip")
-    seg_q = np.take(np.square(by_node).sum(axis=1), seg.cand_node, mode="clip")  # the node's Q
+    seg_w = np.take(by_class.sum(axis=0), seg.cand_node, mode="clip")
+    seg_q = np.take(np.einsum("kn,kn->n", by_class, by_class), seg.cand_node, mode="clip")  # the node's Q
     # Q_l, Q_r, W_l, W_r as four integer running sums over the level, restarted at every segment: the left
     # ones less the previous segment's total at its first run, the right ones from the segment's total
     # down (the previous segment's right sums end at 0)
@@ -234,7 +238,7 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     cand, element = run_cand[pick], ends[pick]
     sides = wl[pick], wr[pick]
     decrease = splitter_decrease(splitter, seg, cand, element, w, y, classes, parent[nodes],
-                                 node_class.reshape(-1, classes)[nodes], sides)
+                                 np.take(by_class, nodes, axis=1, mode="clip").T, sides)
     return record_cuts(seg, out, nodes, element, decrease, sides[0] >= sides[1], cand)
 
 

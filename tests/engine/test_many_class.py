@@ -115,9 +115,9 @@ def test_class_weight_through_is_the_weight_of_the_own_class_up_to_each_run(runs
     node, place, y, w = (np.array(c) for c in zip(*rows))
     cand = node * features + place
     expected = [sum(w[i] for i in range(e + 1) if cand[i] == cand[e] and y[i] == y[e]) for e in range(len(y))]
-    cell = node * classes + y
-    got = _class_ranks.class_weight_through(w, y, cell, place, node_class.ravel()[cell], node_class.ravel(), ncand,
-                                            classes)
+    cell = y * nodes + node  # class-major
+    by_class = node_class.T.ravel()
+    got = _class_ranks.class_weight_through(w, y, cell, place, by_class[cell], by_class, ncand, classes)
     np.testing.assert_array_equal(got, expected)
 
 
