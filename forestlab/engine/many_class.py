@@ -112,8 +112,9 @@ class ManyClassPath:
         by_class = np.bincount(cell, weights=packed & 0xFF, minlength=K * data.classes).reshape(K, data.classes)
         weight = by_class.sum(axis=1)
         totals = np.column_stack([weight, by_class])
-        pure = np.count_nonzero(by_class, axis=1) <= 1
-        return weight, totals, np.argmax(by_class, axis=1).astype(np.float64), pure
+        heaviest = np.argmax(by_class, axis=1)
+        pure = by_class[np.arange(K), heaviest] == weight  # (all of the weight in one class; exact sums)
+        return weight, totals, heaviest.astype(np.float64), pure
 
 
 def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min_leaf: float, lightest: float,
