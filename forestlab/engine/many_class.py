@@ -10,6 +10,9 @@ its running sum. With ``W i = W - Q / W``, a cut scores ``Q_l / W_l + Q_r / W_r`
 node's ``W - Q / W`` (formed from its exact ``Q``), with three roundings whatever ``K`` (the splitter's
 generic formula rounds ``K`` squares per side), so exactly equal partitions score exactly alike.
 
+On a tie-free level where ``min_leaf`` cannot bind, Gini scores only the cuts where the class changes,
+from the same sums over the runs of one class (:func:`gini_class_changes`; no cut inside a run is best).
+
 Entropy: ``W i = W log W - sum_k c_k log c_k``, and the increments are ``f(b + w) - f(b)`` and ``f(a + w) -
 f(a)`` with ``f(c) = c log c`` read from a table; these running sums are floating-point (one ``cumsum`` per
 tree, as every float sum of the engine), so scores equal the splitter's up to rounding.
