@@ -205,8 +205,8 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     nodes = by_class.shape[1]
     ncand = np.bincount(seg.cand_node, minlength=nodes)
     place = np.arange(last.size) - (np.cumsum(ncand) - ncand)[seg.cand_node]  # among the node's candidates
-    at = np.take(np.stack([seg.cand_node, place], axis=1), run_cand, axis=0, mode="clip")
-    cell = run_y * nodes
+    at = np.take(np.stack([seg.cand_node, place], axis=1).astype(np.int32), run_cand, axis=0, mode="clip")
+    cell = np.multiply(run_y, nodes, dtype=np.intp)  # (gathers cast narrower indices first)
     cell += at[:, 0]
     class_total = np.take(node_class, cell, mode="clip")
     through = class_weight_through(run_w, run_y, cell, at[:, 1], class_total, node_class, ncand, classes, work)
@@ -217,13 +217,12 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     # down (the previous segment's right sums end at 0)
     R = ends.size
     sums = np.empty((4, R), dtype=np.int64)
-    np.multiply(through, 2, out=sums[0])  # r (2 b + r) = r (2 s - r), s = b + r the class's weight through
-    sums[0] -= run_w
-    sums[0] *= run_w
-    np.subtract(through, class_total, out=sums[1])  # -r (2 a + r) = r (2 (s - C) - r), a = C - s after
-    sums[1] *= 2
-    sums[1] -= run_w
-    sums[1] *= run_w
+    t = np.multiply(through, 2, out=sums[1])  # 2 s - r, s = b + r the class's weight through the run
+    t -= run_w
+    np.multiply(t, run_w, out=sums[0])  # r (2 b + r) = r (2 s - r)
+    t -= class_total
+    t -= class_total
+    t *= run_w  # -r (2 a + r) = r (2 (s - C) - r), a = C - s after it
     sums[2] = run_w
     np.negative(run_w, out=sums[3])
     sums[0, first[1:]] -= seg_q[:-1]
