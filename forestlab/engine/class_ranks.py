@@ -20,18 +20,19 @@ from numpy.typing import NDArray
 
 from .workspace import Workspace, scratch
 
-__all__ = ["class_ranks"]
+__all__ = ["class_ranks", "class_weight_through"]
 
 
-def class_ranks(w: NDArray, y: NDArray, cand: NDArray, classes: int, work: Workspace | None = None) -> NDArray:
+def class_ranks(w: NDArray, y: NDArray, cand: NDArray, classes: int, work: Workspace | None = None,
+                total: int | None = None) -> NDArray:
     """Per element, the weight of the elements of its class and candidate that precede it.
 
-    ``w``: integer weights (each below 256), ``y``: classes ``0..classes-1``, ``cand``: the candidate of each
-    element (non-decreasing). Sums are int32 where the level's total weight fits, else int64; the result is
-    a scratch buffer of ``work``.
+    ``w``: integer weights, ``y``: classes ``0..classes-1``, ``cand``: the candidate of each element
+    (non-decreasing); ``total``: a bound on the sum of ``w`` (default: every weight below 256). Sums are int32
+    where that fits, else int64; the result is a scratch buffer of ``work``.
     """
     L = w.size
-    dtype = np.int32 if L * 255 < (1 << 31) else np.int64
+    dtype = np.int32 if (L * 255 if total is None else total) < (1 << 31) else np.int64
     order, first = _class_groups(y, cand, classes, work)
     wp = np.take(w, order, out=scratch(work, "cr_wp", L, dtype), mode="clip")
     cs = np.cumsum(wp, out=scratch(work, "cr_cs", L, dtype))
@@ -63,3 +64,37 @@ def _class_groups(y, cand, classes: int, work: Workspace | None):
     starts = np.searchsorted(key, np.arange(1, classes, dtype=dtype) << bits)
     first[starts[starts < L]] = True
     return order, first
+
+
+def class_weight_through(w: NDArray, y: NDArray, cell: NDArray, place: NDArray, class_total: NDArray,
+                         node_class: NDArray, ncand: NDArray, classes: int, work: Workspace | None = None) -> NDArray:
+    """:func:`class_ranks` plus ``w`` for the runs of one class of a level (or its elements), from the node
+    sums: per run, the weight of its class in its segment up to and including it.
+
+    ``w``: integer weights; ``y``: classes (below ``2**16``); ``cell``: ``y * nodes + node``, the run's
+    (class, node); ``place``: its candidate's position among its node's candidates; ``class_total``:
+    ``node_class[cell]``; ``node_class``: the weight of every (class, node) of the level, class-major (int64);
+    ``ncand``: candidates per node. Runs are in level order (node, candidate, value).
+
+    One stable sort of the classes (a radix sort of ``uint8`` or ``uint16``) puts the runs in (class, node,
+    candidate, value) order; there the ``cumsum`` of ``w`` at a run is the weight of every (class, node,
+    candidate) group before its own, ``base``, plus the weight of its class up to it in its segment. Every
+    segment of a node holds all of the node's items, so ``base`` is known without reading the runs: the
+    exclusive cumulative sum, in (class, node) order, of ``ncand * node_class``, plus ``place`` times the
+    class's weight in the node. No group starts are searched or spread.
+    """
+    R = w.size
+    nodes = ncand.size
+    grid = np.multiply(node_class.reshape(-1, nodes), ncand, out=scratch(work, "cr_grid", node_class.size,
+                                                                         np.int64).reshape(-1, nodes)).ravel()
+    base = np.cumsum(grid, out=scratch(work, "cr_base", grid.size, np.int64))
+    base -= grid  # (exclusive)
+    dtype = np.int32 if base[-1] + grid[-1] < (1 << 31) else np.int64
+    order = np.argsort(y.astype(np.uint8 if classes <= 256 else np.uint16), kind="stable")
+    wp = np.take(w, order, out=scratch(work, "cr_wp", R, dtype), mode="clip")
+    np.cumsum(wp, out=wp)
+    through = scratch(work, "cr_before", R, dtype)
+    through[order] = wp
+    through -= np.take(base, cell, mode="clip")
+    through -= place * class_total
+    return through

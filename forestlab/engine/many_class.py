@@ -10,6 +10,9 @@ its running sum. With ``W i = W - Q / W``, a cut scores ``Q_l / W_l + Q_r / W_r`
 node's ``W - Q / W`` (formed from its exact ``Q``), with three roundings whatever ``K`` (the splitter's
 generic formula rounds ``K`` squares per side), so exactly equal partitions score exactly alike.
 
+On a tie-free level where ``min_leaf`` cannot bind, Gini scores only the cuts where the class changes,
+from the same sums over the runs of one class (:func:`gini_class_changes`; no cut inside a run is best).
+
 Entropy: ``W i = W log W - sum_k c_k log c_k``, and the increments are ``f(b + w) - f(b)`` and ``f(a + w) -
 f(a)`` with ``f(c) = c log c`` read from a table; these running sums are floating-point (one ``cumsum`` per
 tree, as every float sum of the engine), so scores equal the splitter's up to rounding.
@@ -25,15 +28,16 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from .class_ranks import class_ranks
+from .class_ranks import class_ranks, class_weight_through
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts
 from .presort import TrainingData
 from .running import running_sums
+from .segments import gather
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, call_splitter
 from .workspace import Workspace, scratch
 
-__all__ = ["ManyClassPath", "entropy_table", "many_class_applies", "many_class_cut_scores", "many_class_path",
-           "splitter_decrease"]
+__all__ = ["ManyClassPath", "entropy_table", "gini_class_changes", "many_class_applies", "many_class_cut_scores",
+           "many_class_path", "splitter_decrease"]
 
 
 def many_class_applies(data: TrainingData, splitter: CartSplitter) -> bool:
@@ -71,6 +75,13 @@ class ManyClassPath:
         """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
         K = self.data.classes
         packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
+        if self.table is None and seg.no_cut is None and min_leaf <= lightest:
+            cell = (packed >> 8) * parent.size + items.node  # class-major (class, node) cells
+            node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
+            elem = (np.take(self.columns[0], seg.wi, out=scratch(work, "mc_elem32", seg.wi.size, np.int32),
+                            mode="clip") if seg.item is None else
+                    gather(packed, seg.item, scratch(work, "mc_elem32", seg.item.size, np.int32)))
+            return gini_class_changes(seg, splitter, elem, node_class, K, parent, out, tie, work)
         cell = items.node * K + (packed >> 8)
         node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
         column = np.take(node_class, cell, mode="clip") << 24  # and the node's weight of the item's class
@@ -104,8 +115,9 @@ class ManyClassPath:
         by_class = np.bincount(cell, weights=packed & 0xFF, minlength=K * data.classes).reshape(K, data.classes)
         weight = by_class.sum(axis=1)
         totals = np.column_stack([weight, by_class])
-        pure = np.count_nonzero(by_class, axis=1) <= 1
-        return weight, totals, np.argmax(by_class, axis=1).astype(np.float64), pure
+        heaviest = np.argmax(by_class, axis=1)
+        pure = by_class[np.arange(K), heaviest] == weight  # (all of the weight in one class; exact sums)
+        return weight, totals, heaviest.astype(np.float64), pure
 
 
 def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min_leaf: float, lightest: float,
@@ -157,6 +169,82 @@ def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min
     return nodes, pick, decrease, (wl[pick], wr[pick])
 
 
+def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: int, parent, out, tie: float,
+                       work: Workspace | None):
+    """:meth:`ManyClassPath.best_splits` for Gini on a tie-free level where ``min_leaf`` cannot bind: only the
+    cuts where the class changes are scored, from sums over the runs of one class.
+
+    ``elem`` holds every element's ``count | class << 8`` (int32, overwritten), ``node_class`` the weight of
+    every (class, node), class-major. Along a run of one class the Gini score is a strictly convex function of
+    the weight moved left (``u + 2 d + (A + d**2) / u`` on each side, ``u`` the side's weight), and the
+    decrease is 0 at a segment's ends, so no cut inside a run is best (Fayyad & Irani 1992, Theorem 1, for any number of
+    classes; as :func:`.fast_search._class_changes` for two). A run of class ``k`` and weight ``r`` preceded
+    by ``b`` of its class in the segment adds ``r (2 b + r)`` to the left ``Q`` and takes ``r (2 a + r)``,
+    ``a = C_k - b - r``, from the right one: the same integers the elements add one by one, so each scored
+    cut scores as in :func:`many_class_cut_scores` bit for bit, and the class ranks sort the runs only.
+    """
+    L = elem.size
+    wide = np.int32 if L * 255 < (1 << 31) else np.int64
+    w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", L, np.int32))
+    y = np.right_shift(elem, 8, out=elem)
+    change = scratch(work, "mc_change", L, np.bool_)
+    np.not_equal(y[1:], y[:-1], out=change[:-1])
+    seg_end = seg.start + seg.size - 1
+    change[seg_end] = True
+    ends = np.flatnonzero(change)  # the last element of every run of one class in a segment
+    upto = np.take(np.cumsum(w, dtype=wide, out=scratch(work, "mc_cw", L, wide)), ends, mode="clip")
+    run_w = np.empty_like(upto)  # every run's weight (runs never cross segments)
+    run_w[0] = upto[0]
+    np.subtract(upto[1:], upto[:-1], out=run_w[1:])
+    run_y = np.take(y, ends, mode="clip")
+    last = np.searchsorted(ends, seg_end)  # (C,) the run ending each segment
+    runs = np.diff(last, prepend=-1)
+    first = last - runs + 1
+    run_cand = np.repeat(np.arange(last.size), runs)
+    by_class = node_class.reshape(classes, -1)  # (class, node)
+    nodes = by_class.shape[1]
+    ncand = np.bincount(seg.cand_node, minlength=nodes)
+    place = np.arange(last.size) - (np.cumsum(ncand) - ncand)[seg.cand_node]  # among the node's candidates
+    at = np.take(np.stack([seg.cand_node, place], axis=1).astype(np.int32), run_cand, axis=0, mode="clip")
+    cell = np.multiply(run_y, nodes, dtype=np.intp)  # (gathers cast narrower indices first)
+    cell += at[:, 0]
+    class_total = np.take(node_class, cell, mode="clip")
+    through = class_weight_through(run_w, run_y, cell, at[:, 1], class_total, node_class, ncand, classes, work)
+    seg_w = np.take(by_class.sum(axis=0), seg.cand_node, mode="clip")
+    seg_q = np.take(np.einsum("kn,kn->n", by_class, by_class), seg.cand_node, mode="clip")  # the node's Q
+    # Q_l, Q_r, W_l, W_r as four integer running sums over the level, restarted at every segment: the left
+    # ones less the previous segment's total at its first run, the right ones from the segment's total
+    # down (the previous segment's right sums end at 0)
+    R = ends.size
+    sums = np.empty((4, R), dtype=np.int64)
+    t = np.multiply(through, 2, out=sums[1])  # 2 s - r, s = b + r the class's weight through the run
+    t -= run_w
+    np.multiply(t, run_w, out=sums[0])  # r (2 b + r) = r (2 s - r)
+    t -= class_total
+    t -= class_total
+    t *= run_w  # -r (2 a + r) = r (2 (s - C) - r), a = C - s after it
+    sums[2] = run_w
+    np.negative(run_w, out=sums[3])
+    sums[0, first[1:]] -= seg_q[:-1]
+    sums[1, first] += seg_q
+    sums[2, first[1:]] -= seg_w[:-1]
+    sums[3, first] += seg_w
+    q_l, q_r, wl, wr = np.cumsum(sums, axis=1, out=sums)
+    score = scratch(work, "mc_score", R, np.float64)
+    node_first = seg.node_first
+    with np.errstate(divide="ignore", invalid="ignore"):
+        np.divide(q_l, wl, out=score)
+        score += np.divide(q_r, wr, out=scratch(work, "mc_tmp", R, np.float64))
+        score[last] = -np.inf  # the segments' ends
+        base = per_node(seg, parent, -seg_q[node_first] / seg_w[node_first])
+        nodes, pick, _ = pick_cuts(seg, parent, base, tie, score, None, work, ends)
+    cand, element = run_cand[pick], ends[pick]
+    sides = wl[pick], wr[pick]
+    decrease = splitter_decrease(splitter, seg, cand, element, w, y, classes, parent[nodes],
+                                 np.take(by_class, nodes, axis=1, mode="clip").T, sides)
+    return record_cuts(seg, out, nodes, element, decrease, sides[0] >= sides[1], cand)
+
+
 def _spread(seg, cand, total, out):
     """Every element's segment total, into ``out``: repeated over long segments (12 elements or more on
     average), else gathered by candidate."""
@@ -166,19 +254,39 @@ def _spread(seg, cand, total, out):
     return np.take(total, cand, out=out, mode="clip")
 
 
-def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent) -> NDArray[np.float64]:
+def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent, node_class=None,
+                      sides=None) -> NDArray[np.float64]:
     """The decrease of each chosen cut (after element ``cut`` of candidate ``cand``) as the generic search
     forms it, ``W_t i(t) - W_l i(l) - W_r i(r)`` from the sides' class weights with the splitter's own
     ``impurity``, so a stored decrease does not depend on the search that found the split. One pass over the
-    chosen segments: as many elements as the nodes have items."""
+    chosen segments: as many elements as the nodes have items; given the nodes' class weights
+    ``node_class`` (chosen nodes x classes) and the sides' weights ``sides`` (integers), over the smaller side
+    of each cut only, the other side being the node's weights less those (exact: integer counts, whose sums
+    do not depend on their order)."""
     size = seg.size[cand]
-    owner = np.repeat(np.arange(cand.size), size)
-    element = np.arange(owner.size) + np.repeat(seg.start[cand] - (np.cumsum(size) - size), size)
-    right = element > np.repeat(cut, size)
-    cell = (owner * 2 + right) * classes + np.take(y, element, mode="clip")
-    by_class = np.bincount(cell, weights=np.take(w, element, mode="clip"), minlength=cand.size * 2 * classes)
+    if node_class is None:
+        first, count = seg.start[cand], size
+    else:
+        left = cut - seg.start[cand] + 1
+        small_left = 2 * left <= size
+        first, count = np.where(small_left, seg.start[cand], cut + 1), np.where(small_left, left, size - left)
+    owner = np.repeat(np.arange(cand.size), count)
+    element = np.arange(owner.size) + np.repeat(first - (np.cumsum(count) - count), count)
+    if node_class is None:
+        owner = owner * 2 + (element > np.repeat(cut, count))
+    cell = owner * classes + np.take(y, element, mode="clip")
+    by_class = np.bincount(cell, weights=np.take(w, element, mode="clip"),
+                           minlength=cand.size * (2 if node_class is None else 1) * classes)
     S = np.empty((cand.size, 2, 1 + classes))
-    S[..., 1:] = by_class.reshape(cand.size, 2, classes)
-    S[..., 0] = S[..., 1:].sum(axis=-1)
+    if node_class is None:
+        S[..., 1:] = by_class.reshape(cand.size, 2, classes)
+        S[..., 0] = S[..., 1:].sum(axis=-1)
+    else:
+        counted = by_class.reshape(cand.size, classes)
+        S[:, 0, 1:] = counted
+        np.subtract(node_class, counted, out=S[:, 1, 1:])
+        swap = np.flatnonzero(~small_left)  # there the right side was counted
+        S[swap, :, 1:] = S[swap, ::-1, 1:]
+        S[:, 0, 0], S[:, 1, 0] = sides
     impurity = call_splitter(splitter, "impurity", S)
     return parent - S[:, 0, 0] * impurity[:, 0] - S[:, 1, 0] * impurity[:, 1]

@@ -75,8 +75,9 @@ def test_the_many_class_search_serves_unweighted_fits(monkeypatch, kind, ties):
     """The problems above take the many-class search (so their check is not vacuous), and with case
     weights they do not."""
     calls = []
-    original = _class_ranks.class_ranks
-    monkeypatch.setattr(_many_class, "class_ranks", lambda *a: calls.append(1) or original(*a))
+    for name in ("class_ranks", "class_weight_through"):  # (Gini without ties: the second, over the runs)
+        original = getattr(_class_ranks, name)
+        monkeypatch.setattr(_many_class, name, lambda *a, original=original: calls.append(1) or original(*a))
     rng = np.random.default_rng(5)
     X = rng.normal(size=(90, 3))
     X = np.round(X) if ties else X
@@ -96,6 +97,28 @@ def test_class_ranks_are_the_weight_of_the_own_class_before(elements):
     w = np.array([v for _, _, v in elements])
     expected = [sum(w[j] for j in range(e) if cand[j] == cand[e] and y[j] == y[e]) for e in range(len(y))]
     np.testing.assert_array_equal(_class_ranks.class_ranks(w, y, cand, 4), expected)
+
+
+@given(st.lists(st.tuples(st.integers(0, 3), st.integers(0, 4), st.integers(1, 300)), min_size=1, max_size=60),
+       st.integers(1, 4))
+def test_class_weight_through_is_the_weight_of_the_own_class_up_to_each_run(runs, features):
+    """The weight of a run's class in its segment up to and including the run, from the node sums: every
+    node's items appear once in each of its ``features`` segments (runs here: (node, class, weight) in node
+    order, repeated per segment)."""
+    runs = sorted(runs, key=lambda r: r[0])
+    nodes, classes = 4, 5
+    node_class = np.zeros((nodes, classes), dtype=np.int64)
+    for node, k, v in runs:
+        node_class[node, k] += v
+    ncand = np.array([features if any(r[0] == node for r in runs) else 0 for node in range(nodes)])
+    rows = [(node, j, k, v) for node in range(nodes) for j in range(ncand[node]) for r, k, v in runs if r == node]
+    node, place, y, w = (np.array(c) for c in zip(*rows))
+    cand = node * features + place
+    expected = [sum(w[i] for i in range(e + 1) if cand[i] == cand[e] and y[i] == y[e]) for e in range(len(y))]
+    cell = y * nodes + node  # class-major
+    by_class = node_class.T.ravel()
+    got = _class_ranks.class_weight_through(w, y, cell, place, by_class[cell], by_class, ncand, classes)
+    np.testing.assert_array_equal(got, expected)
 
 
 def test_principal_axis_follows_the_leading_eigenvector():
