@@ -150,14 +150,10 @@ def _order_runs(seg: Segments, elem, cand, node_class, work: Workspace | None) -
     cat_cand = run_cand[cat]
     by_class = _run_classes(elem, start, size, cat, K)
     weight = by_class.sum(axis=1)
-    score = _run_scores(data, seg, cat_cand, rank, weight, by_class, node_class)
-    order = np.lexsort((score, cat_cand))  # within each candidate by score, ties in code order
-    group = run_starts(cat_cand)
-    group_start = np.repeat(group, np.diff(np.append(group, cat.size)))
-    position = np.empty(cat.size, dtype=np.int64)
-    position[order] = np.arange(cat.size) - group_start
+    groups = _Groups(cat_cand, seg.cand_node, node_class)
+    position = groups.positions(_run_scores(data, groups, rank, weight, by_class))
     sequence = np.arange(start.size)
-    sequence[cat] = cat[order]  # (a candidate's runs are contiguous: the new order keeps them in place)
+    sequence[cat[groups.first_run + position]] = cat  # (a candidate's runs stay in its place)
     new_size = size[sequence]
     new_start = np.cumsum(new_size) - new_size
     return _Runs(start, size, cat, cat_cand, weight, position, sequence, new_start, seg.item[start[cat]])
@@ -177,35 +173,65 @@ def _run_classes(elem, start, size, cat, K: int) -> NDArray[np.float64]:
     return np.bincount(local, weights=elements & 0xFF, minlength=cat.size * K).reshape(cat.size, K)
 
 
-def _run_scores(data: TrainingData, seg: Segments, cat_cand, rank, weight, by_class, node_class):
+class _Groups:
+    """The categorical runs grouped by candidate (a candidate's runs are contiguous, in code order)."""
+
+    def __init__(self, cat_cand, cand_node, node_class) -> None:
+        self.start = run_starts(cat_cand)  # (G,) first run of every categorical candidate
+        self.count = np.diff(np.append(self.start, cat_cand.size))  # its runs: its present categories
+        self.first_run = np.repeat(self.start, self.count)  # (P,) first run of every run's candidate
+        self.slot = np.arange(cat_cand.size) - self.first_run  # (P,) the run's place among them
+        present = node_class > 0
+        node = cand_node[cat_cand[self.start]]
+        self.classes = np.count_nonzero(present, axis=1)[node]  # (G,) classes in the candidate's node
+        self.first_class = np.argmax(present, axis=1)[node]  # (G,) the lowest of them
+
+    def runs(self, which: NDArray[np.intp]) -> NDArray[np.intp]:
+        """The runs of the groups ``which``, group by group."""
+        count = self.count[which]
+        return np.arange(count.sum()) + np.repeat(self.start[which] - (np.cumsum(count) - count), count)
+
+    def positions(self, score: NDArray[np.float64]) -> NDArray[np.int64]:
+        """Every run's place in its candidate's order by ``score``, ties in code order."""
+        position = np.zeros(score.size, dtype=np.int64)
+        two = self.start[self.count == 2]
+        position[two] = score[two + 1] < score[two]
+        position[two + 1] = 1 - position[two]
+        more = np.flatnonzero(self.count > 2)
+        if more.size:
+            runs = self.runs(more)
+            width = int(self.count[more].max())
+            owner = np.repeat(np.arange(more.size), self.count[more])
+            table = np.full((more.size, width), np.inf)
+            table[owner, self.slot[runs]] = score[runs]
+            order = np.argsort(table, axis=1, kind="stable")
+            place = np.empty_like(order)
+            np.put_along_axis(place, order, np.arange(width)[None, :], axis=1)
+            position[runs] = place[owner, self.slot[runs]]
+        return position
+
+
+def _run_scores(data: TrainingData, groups: _Groups, rank, weight, by_class):
     """Every categorical run's score in its candidate's order (lower first; ties in code order): the share of
     the node's first class (nodes of at most two classes), 0 / 1 for two categories, else the projection
     on the first principal component (:mod:`.categories`)."""
-    group = run_starts(cat_cand)
-    count = np.diff(np.append(group, cat_cand.size))
-    runs = np.repeat(count, count)
-    present = node_class[seg.cand_node[cat_cand]] > 0  # (P, K) the classes of the run's node
-    classes = np.count_nonzero(present, axis=1)
-    score = np.zeros(cat_cand.size)
-    few = np.flatnonzero((classes <= 2) & (runs > 1))
-    first_class = np.argmax(present[few], axis=1)
-    score[few] = by_class[few, first_class] / weight[few]
-    pair = np.flatnonzero((classes > 2) & (runs == 2))[::2]  # the first run of each such candidate
+    score = np.zeros(weight.size)
+    few = np.flatnonzero((groups.classes <= 2) & (groups.count > 1))
+    runs = groups.runs(few)
+    score[runs] = by_class[runs, np.repeat(groups.first_class[few], groups.count[few])] / weight[runs]
+    pair = groups.start[(groups.classes > 2) & (groups.count == 2)]  # the first run of each such candidate
     if pair.size:
         shares = np.stack([by_class[pair] / weight[pair, None], by_class[pair + 1] / weight[pair + 1, None]], axis=1)
-        score[pair] = np.where(two_category_first(shares), 0.0, 1.0)
-        score[pair + 1] = 1.0 - score[pair]
-    many = np.flatnonzero((classes > 2) & (runs > 2))
+        score[pair + 1] = np.where(two_category_first(shares), 1.0, -1.0)
+    many = np.flatnonzero((groups.classes > 2) & (groups.count > 2))
     if many.size:
         k = int(data.categories.max())
-        which = np.searchsorted(group, many, side="right") - 1  # the run's candidate among the groups
-        local = np.unique(which, return_inverse=True)[1]
-        cells = local * k + rank[many]
-        m = int(local.max()) + 1
-        dense_weight = np.zeros(m * k)
-        dense_weight[cells] = weight[many]
-        dense_class = np.zeros((m * k, by_class.shape[1]))
-        dense_class[cells] = by_class[many]
-        scores = principal_scores(dense_weight.reshape(m, k), dense_class.reshape(m, k, -1))
-        score[many] = scores.ravel()[cells]
+        runs = groups.runs(many)
+        cells = np.repeat(np.arange(many.size) * k, groups.count[many]) + rank[runs]
+        dense_weight = np.zeros(many.size * k)
+        dense_weight[cells] = weight[runs]
+        dense_class = np.zeros((many.size * k, by_class.shape[1]))
+        dense_class[cells] = by_class[runs]
+        scores = principal_scores(dense_weight.reshape(many.size, k), dense_class.reshape(many.size, k, -1))
+        score[runs] = scores.ravel()[cells]
     return score
