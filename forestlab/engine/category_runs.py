@@ -149,7 +149,7 @@ def _order_runs(seg: Segments, elem, cand, node_class, work: Workspace | None) -
     rank = (seg.code[start[cat]] >> (seg.code_shift - db)) & ((1 << db) - 1)
     cat_cand = run_cand[cat]
     by_class = _run_classes(elem, start, size, cat, K)
-    weight = by_class.sum(axis=1)
+    weight = by_class @ np.ones(K)  # (integer sums: exact in any order)
     groups = _Groups(cat_cand, seg.cand_node, node_class)
     position = groups.positions(_run_scores(data, groups, rank, weight, by_class))
     sequence = np.arange(start.size)
