@@ -26,6 +26,7 @@ from .categories import left_sets, principal_scores, two_category_first
 from .cuts import record_cuts
 from .many_class import ManyClassPath, entropy_table, many_class_cut_scores, splitter_decrease
 from .presort import TrainingData
+from .run_gini import run_gini_splits
 from .segments import Segments, gather, run_starts
 from .splitter import CartSplitter, EntropySplitter
 from .workspace import Workspace, scratch
@@ -57,6 +58,9 @@ class CategoryRunsPath(ManyClassPath):
         elem = gather(column, seg.item, scratch(work, "mc_elem", L, np.int64))
         cand = np.right_shift(seg.code, seg.code_shift)
         runs = _order_runs(seg, elem, cand, node_class.reshape(parent.size, K), work)
+        if runs is not None and self.table is None and runs.cat.size == runs.start.size:  # Gini, all categorical
+            return run_gini_splits(seg, runs, splitter, min_leaf, lightest, node_class.reshape(parent.size, K),
+                                   parent, out, tie, work)
         if runs is not None:
             elem = runs.move(seg, elem, work)
         w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", L, np.int32), casting="unsafe")
@@ -87,6 +91,8 @@ class _Runs:
     sequence: NDArray[np.intp]     # (R,) the runs in their new order
     new_start: NDArray[np.int64]   # (R,) first element of the run at each place of the new order
     first_item: NDArray            # (P,) the item of every categorical run's first element
+    by_class: NDArray[np.float64]  # (P, K) the class weights of every categorical run
+    elements: NDArray[np.int64]    # (L,) every element's ``w | class << 8 | C_class << 24``, in the sorted order
 
     def move(self, seg: Segments, elem, work: Workspace | None):
         """Put the elements in the new run order: ``seg.item`` and ``seg.no_cut`` in place, and ``elem``
@@ -156,7 +162,8 @@ def _order_runs(seg: Segments, elem, cand, node_class, work: Workspace | None) -
     sequence[cat[groups.first_run + position]] = cat  # (a candidate's runs stay in its place)
     new_size = size[sequence]
     new_start = np.cumsum(new_size) - new_size
-    return _Runs(start, size, cat, cat_cand, weight, position, sequence, new_start, seg.item[start[cat]])
+    return _Runs(start, size, cat, cat_cand, weight, position, sequence, new_start, seg.item[start[cat]], by_class,
+                 elem)
 
 
 def _run_classes(elem, start, size, cat, K: int) -> NDArray[np.float64]:
