@@ -17,14 +17,25 @@ import forestlab as fl
 from forestlab.engine.categories import category_order, two_category_first
 
 
-def node_split(X, y, K, splitter, min_leaf, width):
-    """(decrease, feature, left categories) of the best ordered split of the node's cases, or None."""
+def node_split(X, y, K, splitter, min_leaf, width, numeric=()):
+    """(decrease, feature, left categories or numeric cut, heavier left) of the best ordered split of the
+    node's cases, or None; the features in ``numeric`` are cut between distinct values."""
     stats = np.column_stack([np.ones(len(y)), splitter.statistics(y, K)])
     total = stats.sum(axis=0)
     parent = total[0] * splitter.impurity(total)
     cuts = []
     for j in range(X.shape[1]):
         codes = X[:, j]
+        if j in numeric:
+            values = np.unique(codes)
+            for t in range(1, values.size):
+                left = codes <= values[t - 1]
+                if left.sum() < min_leaf or (~left).sum() < min_leaf:
+                    continue
+                SL, SR = stats[left].sum(axis=0), stats[~left].sum(axis=0)
+                cuts.append((parent - SL[0] * splitter.impurity(SL) - SR[0] * splitter.impurity(SR), j,
+                             0.5 * (values[t - 1] + values[t]), None))
+            continue
         weight = np.bincount(codes, minlength=width).astype(float)
         by_class = np.bincount(codes * K + y, minlength=width * K).reshape(width, K).astype(float)
         pos = category_order(weight[None], None, by_class[None])[0]
@@ -52,21 +63,24 @@ def problems(draw):
     K = draw(st.integers(3, 5))
     X = np.array(draw(st.lists(st.lists(st.integers(0, k - 1), min_size=p, max_size=p), min_size=n, max_size=n)))
     y = np.array(draw(st.lists(st.integers(0, K - 1), min_size=n, max_size=n)))
-    return X, y, draw(st.sampled_from(["gini", "entropy"])), draw(st.sampled_from([1, 2]))
+    numeric = (p - 1,) if p > 1 and draw(st.booleans()) else ()
+    return X, y, draw(st.sampled_from(["gini", "entropy"])), draw(st.sampled_from([1, 2])), numeric
 
 
 @settings(max_examples=120, deadline=None)
 @given(problems())
 def test_depth_two_trees_match_the_dense_order_reference(problem):
-    X, y, kind, min_leaf = problem
-    # codes as intake makes them: 0..k-1 over the values present in each column, classes 0..K-1
+    X, y, kind, min_leaf, numeric = problem
+    # codes as intake makes them: 0..k-1 over the values present in each column, classes 0..K-1 (a numeric
+    # column keeps its integer values, so ties)
     X = np.column_stack([np.unique(X[:, j], return_inverse=True)[1] for j in range(X.shape[1])])
     y = np.unique(y, return_inverse=True)[1]
     K = int(y.max()) + 1
     if K < 3:
         return
     forest = fl.Forest(trees=1, sampler=fl.AllFeatures(), splitter=kind, min_leaf=min_leaf, sample_size=len(y),
-                       replace=False, depth_limit=2, categorical=list(range(X.shape[1])), rng=0)
+                       replace=False, depth_limit=2,
+                       categorical=[j for j in range(X.shape[1]) if j not in numeric], rng=0)
     tree = forest.fit(X.astype(float), y).tree(0)
     width = int(X.max()) + 1
     nodes = [(0, np.arange(len(y)))]  # breadth first: (node, its cases)
@@ -74,13 +88,19 @@ def test_depth_two_trees_match_the_dense_order_reference(problem):
     for node, cases in nodes:
         pure = np.unique(y[cases]).size <= 1
         found = None if pure or len(cases) < 2 * min_leaf or node >= 3 else \
-            node_split(X[cases], y[cases], K, forest.splitter, min_leaf, width)
+            node_split(X[cases], y[cases], K, forest.splitter, min_leaf, width, numeric)
         if found is None:
             assert tree.feature[node] == -1
             continue
         decrease, j, left_set, heavier_left = found
         assert tree.feature[node] == j
         np.testing.assert_allclose(tree.impurity_decrease[node], decrease, rtol=1e-6, atol=1e-6)
+        if j in numeric:
+            assert tree.threshold[node] == left_set
+            goes_left = X[cases, j] <= left_set
+            nodes += [(2 * inner + 1, cases[goes_left]), (2 * inner + 2, cases[~goes_left])]
+            inner += 1
+            continue
         bits = tree.category_left[node, 0]
         stored = {c for c in range(width) if (bits >> np.uint64(c)) & np.uint64(1)}
         present = set(np.unique(X[cases, j]).tolist())
