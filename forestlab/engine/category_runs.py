@@ -92,7 +92,6 @@ class _Runs:
     new_start: NDArray[np.int64]   # (R,) first element of the run at each place of the new order
     first_item: NDArray            # (P,) the item of every categorical run's first element
     by_class: NDArray[np.float64]  # (P, K) the class weights of every categorical run
-    elements: NDArray[np.int64]    # (L,) every element's ``w | class << 8 | C_class << 24``, in the sorted order
 
     def move(self, seg: Segments, elem, work: Workspace | None):
         """Put the elements in the new run order: ``seg.item`` and ``seg.no_cut`` in place, and ``elem``
@@ -162,8 +161,7 @@ def _order_runs(seg: Segments, elem, cand, node_class, work: Workspace | None) -
     sequence[cat[groups.first_run + position]] = cat  # (a candidate's runs stay in its place)
     new_size = size[sequence]
     new_start = np.cumsum(new_size) - new_size
-    return _Runs(start, size, cat, cat_cand, weight, position, sequence, new_start, seg.item[start[cat]], by_class,
-                 elem)
+    return _Runs(start, size, cat, cat_cand, weight, position, sequence, new_start, seg.item[start[cat]], by_class)
 
 
 def _run_classes(elem, start, size, cat, K: int) -> NDArray[np.float64]:

@@ -35,6 +35,7 @@ def run_gini_splits(seg, runs, splitter: CartSplitter, min_leaf: float, lightest
     node_total = node_class.astype(np.float64)  # (nodes, K)
     cand_total = node_total[seg.cand_node[runs.cat_cand[group]]]  # (G, K) a candidate's runs sum to its node
     table = runs.by_class[seq]  # (P, K) the runs in the new order
+    across = np.einsum("pk,pk->p", table, node_total[seg.cand_node[runs.cat_cand]])  # each run's T . c
     table[group[1:]] -= cand_total[:-1]  # so that one cumsum restarts at every candidate
     left = np.cumsum(table, axis=0, out=table)
     weight = runs.weight[seq]
@@ -42,9 +43,7 @@ def run_gini_splits(seg, runs, splitter: CartSplitter, min_leaf: float, lightest
     wl = np.cumsum(weight, out=weight)
     q_left = np.einsum("pk,pk->p", left, left)
     # the right side: W_r = W - W_l and Q_r = sum (T_k - l_k)**2 = Q - 2 T . l + Q_l (integers: exact), T . l
-    # the running sum of each run's T . c, summed over its elements as w * T_class
-    elem = runs.elements
-    across = np.add.reduceat((elem >> 24) * (elem & 0xFF), runs.start)[seq].astype(np.float64)
+    # the running sum of the runs' T . c
     node_q = np.einsum("nk,nk->n", node_total, node_total)
     cand_q = np.repeat(node_q[seg.cand_node[runs.cat_cand[group]]], count)
     cand_w = np.repeat(node_total.sum(axis=1)[seg.cand_node[runs.cat_cand[group]]], count)
