@@ -38,12 +38,23 @@ def category_runs_path(data: TrainingData, splitter: CartSplitter, counts: NDArr
     """The batch's counts and classes packed as for :class:`.many_class.ManyClassPath`."""
     packed = counts.astype(np.int32) | (data.target.astype(np.int32) << 8)[None, :]
     table = entropy_table(int(counts.sum(axis=1).max())) if type(splitter) is EntropySplitter else None
-    return CategoryRunsPath("many_class", (packed.ravel(),), data, table)
+    categorical = np.flatnonzero(data.categories > 0)
+    codes = bool(np.all(data.dense[categorical].max(axis=1) == data.categories[categorical] - 1))
+    return CategoryRunsPath("many_class", (packed.ravel(),), data, table, codes)
 
 
 @dataclass(frozen=True)
 class CategoryRunsPath(ManyClassPath):
-    """:class:`.many_class.ManyClassPath` for data with categorical features (and no missing values)."""
+    """:class:`.many_class.ManyClassPath` for data with categorical features (and no missing values);
+    ``ranks_are_codes``: every categorical feature's dense ranks are its codes (every code is present)."""
+
+    ranks_are_codes: bool = False
+
+    def sorts_nothing(self, cand) -> bool:
+        """Whether the level's candidates ``cand`` (node * p + feature) need no sort: Gini, every candidate
+        categorical, ranks that are codes (:mod:`.category_tables`)."""
+        data = self.data
+        return self.table is None and self.ranks_are_codes and bool(np.all(data.categories[cand % data.features] > 0))
 
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, means, out,
                     tie: float, work: Workspace | None):
@@ -90,8 +101,9 @@ class _Runs:
     position: NDArray[np.int64]    # (P,) their positions in their candidate's order
     sequence: NDArray[np.intp]     # (R,) the runs in their new order
     new_start: NDArray[np.int64]   # (R,) first element of the run at each place of the new order
-    first_item: NDArray            # (P,) the item of every categorical run's first element
+    first_item: NDArray | None     # (P,) the item of every categorical run's first element (None: codes = ranks)
     by_class: NDArray[np.float64]  # (P, K) the class weights of every categorical run
+    rank: NDArray[np.int64]        # (P,) their dense ranks
 
     def move(self, seg: Segments, elem, work: Workspace | None):
         """Put the elements in the new run order: ``seg.item`` and ``seg.no_cut`` in place, and ``elem``
@@ -121,8 +133,10 @@ class _Runs:
         count = np.searchsorted(self.cat_cand, chosen, side="right") - lo
         owner = np.repeat(np.arange(chosen.size), count)
         run = np.arange(owner.size) + np.repeat(lo - (np.cumsum(count) - count), count)
-        row = seg.items.row[self.first_item[run]]
-        code = data.X[row, seg.cand_feat[chosen][owner]].astype(np.int64)
+        if self.first_item is None:
+            code = self.rank[run]
+        else:
+            code = data.X[seg.items.row[self.first_item[run]], seg.cand_feat[chosen][owner]].astype(np.int64)
         weight = np.zeros((chosen.size, k))
         weight[owner, code] = self.weight[run]
         pos = np.zeros((chosen.size, k), dtype=np.int64)
@@ -152,16 +166,20 @@ def _order_runs(seg: Segments, elem, cand, node_class, work: Workspace | None) -
         return None
     K, db = data.classes, data.dense_bits
     rank = (seg.code[start[cat]] >> (seg.code_shift - db)) & ((1 << db) - 1)
-    cat_cand = run_cand[cat]
     by_class = _run_classes(elem, start, size, cat, K)
-    weight = by_class @ np.ones(K)  # (integer sums: exact in any order)
+    return _ordered(seg, start, size, cat, run_cand[cat], rank, by_class, node_class, seg.item[start[cat]])
+
+
+def _ordered(seg: Segments, start, size, cat, cat_cand, rank, by_class, node_class, first_item) -> _Runs:
+    """The runs with their categorical candidates' order (:func:`_run_scores`) and new sequence."""
+    weight = by_class @ np.ones(by_class.shape[1])  # (integer sums: exact in any order)
     groups = _Groups(cat_cand, seg.cand_node, node_class)
-    position = groups.positions(_run_scores(data, groups, rank, weight, by_class))
+    position = groups.positions(_run_scores(seg.data, groups, rank, weight, by_class))
     sequence = np.arange(start.size)
     sequence[cat[groups.first_run + position]] = cat  # (a candidate's runs stay in its place)
     new_size = size[sequence]
     new_start = np.cumsum(new_size) - new_size
-    return _Runs(start, size, cat, cat_cand, weight, position, sequence, new_start, seg.item[start[cat]], by_class)
+    return _Runs(start, size, cat, cat_cand, weight, position, sequence, new_start, first_item, by_class, rank)
 
 
 def _run_classes(elem, start, size, cat, K: int) -> NDArray[np.float64]:

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .cuts import per_node, pick_cuts, record_cuts
+from .cuts import per_node, pick_cuts
 from .segments import run_starts
 from .splitter import CartSplitter, call_splitter
 from .workspace import Workspace
@@ -72,6 +72,9 @@ def run_gini_splits(seg, runs, splitter: CartSplitter, min_leaf: float, lightest
     S[..., 0] = S[..., 1:].sum(axis=-1)
     impurity = call_splitter(splitter, "impurity", S)
     decrease = parent[nodes] - S[:, 0, 0] * impurity[:, 0] - S[:, 1, 0] * impurity[:, 1]
-    record_cuts(seg, out, nodes, element, decrease, wl[run] >= wr[run], chosen)
+    out.found[nodes] = True  # (the threshold of a categorical split is NaN, its dense cut rank unused)
+    out.feature[nodes] = seg.cand_feat[chosen]
+    out.decrease[nodes] = decrease
+    out.missing_left[nodes] = wl[run] >= wr[run]  # (categories absent from the node: to the heavier side)
     runs.record(seg, out, nodes, chosen, element)
     return out

@@ -15,6 +15,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .categories import category_order, left_sets
+from .category_runs import CategoryRunsPath
+from .category_tables import unsorted_gini_splits
 from .cuts import record_cuts
 from .presort import TrainingData
 from .running import running_sums
@@ -76,6 +78,9 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, bat
     cand = np.flatnonzero(mask)
     if cand.size == 0 or items.row.size == 0:
         return out
+    if isinstance(batch.fast, CategoryRunsPath) and batch.fast.sorts_nothing(cand):  # (all categorical, Gini)
+        return unsorted_gini_splits(batch.fast, splitter, min_leaf, batch.lightest, items, node_tree, mask, cand,
+                                    parent, out, TIE_TOLERANCE, batch.work)
     seg = sorted_segments(data, items, node_tree, mask, cand, batch.work, by_position=batch.fast is not None)
     if batch.fast is not None:
         return batch.fast.best_splits(seg, splitter, min_leaf, batch.lightest, items, parent, means, out,

@@ -128,3 +128,38 @@ def test_two_categories_take_the_order_of_the_power_iterations():
     np.testing.assert_array_equal(first[distinct & more], pos[distinct & more, 0] == 0)
     # equal shares: the code order
     assert np.all(two_category_first(np.repeat(shares[:, :1], 2, axis=1)))
+
+
+class FirstPlusOne(fl.CandidateSampler):
+    """Feature 0 and one other at random: one or two candidates a node (unequal counts per node)."""
+
+    def draw(self, rng, nodes, features):
+        mask = np.zeros((nodes, features), dtype=bool)
+        mask[:, 0] = True
+        mask[np.arange(nodes), rng.integers(0, features, size=nodes)] = True
+        return mask
+
+
+def test_levels_searched_without_the_sort_grow_the_trees_of_the_sorted_runs(monkeypatch):
+    # all-categorical Gini levels take the run tables from the unsorted pairs (category_tables); forcing the
+    # sorted runs (category_runs, left sets read from X) must give the same trees bit for bit
+    from forestlab.engine.category_runs import CategoryRunsPath
+
+    rng = np.random.default_rng(11)
+    X = rng.integers(0, 5, size=(400, 4)).astype(float)
+    y = (X[:, 0] + X[:, 1] + rng.integers(0, 3, 400)).astype(int) % 4
+    forests = []
+    for sampler in (2, FirstPlusOne()):
+        fits = []
+        for sorted_runs in (False, True):
+            if sorted_runs:
+                monkeypatch.setattr(CategoryRunsPath, "sorts_nothing", lambda self, cand: False)
+            fits.append(fl.Forest(trees=8, sampler=sampler, categorical=[0, 1, 2, 3], rng=2).fit(X, y))
+            monkeypatch.undo()
+        forests.append(fits)
+    for unsorted, by_sort in forests:
+        for t in range(unsorted.trees):
+            a, b = unsorted.tree(t), by_sort.tree(t)
+            for name in ("feature", "threshold", "value", "cases", "impurity_decrease", "missing_left",
+                         "category_left"):
+                np.testing.assert_array_equal(getattr(a, name), getattr(b, name))
