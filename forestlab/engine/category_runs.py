@@ -9,10 +9,11 @@ compact table (present categories only); a candidate with one run has no cut, on
 partition (its order from the sign of the shares' difference, :func:`.categories.two_category_first`), and a
 node with at most two classes orders by one class's share; only candidates of three or more categories in
 nodes of three or more classes build the dense (candidates, categories, classes) tables of the power
-iterations (:func:`.categories.principal_scores`). The runs are then moved into that order (one gather of the
-elements by run; no sort), and the many-class cut search (:func:`.many_class.many_class_cut_scores`) runs on
-positions as on numeric values. Elements, orders and arithmetic are those of the generic search, so the trees
-are the same (see ``benchmarks/RESULTS.md``).
+iterations (:func:`.categories.principal_scores`). With Gini and every candidate categorical the cuts are
+scored at the runs (:mod:`.run_gini`; such levels are not even sorted, :mod:`.category_tables`); otherwise the
+runs are moved into that order (one gather of the elements by run; no sort), and the many-class cut search
+(:func:`.many_class.many_class_cut_scores`) runs on positions as on numeric values. Elements, orders and
+arithmetic are those of the generic search, so the trees are the same (see ``benchmarks/RESULTS.md``).
 """
 
 from __future__ import annotations
