@@ -22,9 +22,9 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from .principal_axis import projections
+from .principal_axis import LEADING, projections
 
-__all__ = ["category_order", "in_left_set", "left_sets", "words_for"]
+__all__ = ["category_order", "in_left_set", "left_sets", "principal_scores", "two_category_first", "words_for"]
 
 
 def words_for(categories: int) -> int:
@@ -67,12 +67,43 @@ def _first_component_scores(weight, by_class):
         scores[lo + two] = np.take_along_axis(shares[two], np.argmax(present[two], axis=1)[:, None, None],
                                               axis=2)[..., 0]
         more = np.flatnonzero(np.count_nonzero(present, axis=1) > 2)
-        w, shares = w[more], shares[more]
-        total = w.sum(axis=1, keepdims=True)
-        total[total == 0] = 1.0  # a candidate whose node cases all miss this feature: no category to order
-        mean = np.einsum("ck,ckj->cj", w, shares) / total
-        scores[lo + more] = projections(w, shares - mean[:, None, :])
+        scores[lo + more] = _projected(w[more], shares[more])
     return scores
+
+
+def principal_scores(weight: NDArray[np.float64], by_class: NDArray[np.float64]) -> NDArray[np.float64]:
+    """The many-class order's scores (C, k) of candidates whose nodes hold more than two classes: each
+    category's class shares projected on the first weighted principal component, :data:`BLOCK` candidates
+    at a time (the same operations on the same operands as :func:`category_order`, whatever the other
+    candidates)."""
+    scores = np.empty(weight.shape)
+    for lo in range(0, weight.shape[0], BLOCK):
+        w, counts = weight[lo:lo + BLOCK], by_class[lo:lo + BLOCK]
+        scores[lo:lo + BLOCK] = _projected(w, counts / np.where(w > 0, w, 1.0)[..., None])
+    return scores
+
+
+def _projected(w, shares):
+    """Projections of the categories' ``shares`` (C, k, K) of weights ``w`` (C, k) on their first weighted
+    principal component (:func:`.principal_axis.projections`), centred on the weighted mean shares."""
+    total = w.sum(axis=1, keepdims=True)
+    total[total == 0] = 1.0  # a candidate whose node cases all miss this feature: no category to order
+    mean = np.einsum("ck,ckj->cj", w, shares) / total
+    return projections(w, shares - mean[:, None, :])
+
+
+def two_category_first(shares: NDArray[np.float64]) -> NDArray[np.bool_]:
+    """Whether the lower-coded of exactly two present categories comes first in the many-class order, from
+    their class shares ``shares`` (C, 2, K), without the power iterations.
+
+    Two points span one direction, ``d = s_a - s_b``: the principal axis is ``d`` with the sign
+    :func:`.principal_axis.projections` gives it (its first largest component, within
+    :data:`.principal_axis.LEADING`, positive), and ``a`` projects below ``b`` exactly when that component of
+    ``d`` is negative. Equal shares project alike: then the code order (``a`` first)."""
+    d = shares[:, 0] - shares[:, 1]
+    size = np.abs(d)
+    big = np.argmax(size >= (1 - LEADING) * size.max(axis=1, keepdims=True), axis=1)
+    return np.take_along_axis(d, big[:, None], axis=1)[:, 0] <= 0
 
 
 #: candidates ordered together (their (candidates, k, K) arrays: 0.6 MiB at k = 8, K = 10)

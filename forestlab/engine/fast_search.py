@@ -30,6 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from .category_runs import category_runs_path
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts, record_sides, segment_totals
 from .many_class import ManyClassPath, many_class_applies, many_class_path
 from .presort import TrainingData
@@ -118,8 +119,10 @@ def fast_path(data: TrainingData, splitter: CartSplitter,
     """The specialised search for this batch, or None when only the generic one applies (user splitters,
     missing values, categories, case weights with two or more classes; more classes take
     :mod:`.many_class`'s search)."""
-    if data.missing or data.category_words:
+    if data.missing:
         return None
+    if data.category_words:  # many classes: the categorical runs put in order (:mod:`.category_runs`)
+        return category_runs_path(data, splitter, counts) if many_class_applies(data, splitter) else None
     if (type(splitter) in (GiniSplitter, EntropySplitter) and data.classes == 2 and data.weights is None
             and data.stats.shape[1] == 3):
         w = counts.astype(np.int64)

@@ -15,12 +15,13 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .categories import category_order, left_sets
+from .category_runs import CategoryRunsPath
+from .category_tables import unsorted_gini_splits
 from .cuts import record_cuts
-from .many_class import entropy_table, many_class_applies, many_class_cut_scores, splitter_decrease
 from .presort import TrainingData
 from .running import running_sums
 from .segments import Items, Segments, run_starts, sorted_segments
-from .splitter import CartSplitter, EntropySplitter, call_splitter
+from .splitter import CartSplitter, call_splitter
 
 __all__ = ["Items", "Splits", "best_splits", "checked_impurity"]
 
@@ -77,6 +78,9 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, bat
     cand = np.flatnonzero(mask)
     if cand.size == 0 or items.row.size == 0:
         return out
+    if isinstance(batch.fast, CategoryRunsPath) and batch.fast.sorts_nothing(cand):  # (all categorical, Gini)
+        return unsorted_gini_splits(batch.fast, splitter, min_leaf, batch.lightest, items, node_tree, mask, cand,
+                                    parent, out, TIE_TOLERANCE, batch.work)
     seg = sorted_segments(data, items, node_tree, mask, cand, batch.work, by_position=batch.fast is not None)
     if batch.fast is not None:
         return batch.fast.best_splits(seg, splitter, min_leaf, batch.lightest, items, parent, means, out,
@@ -84,9 +88,6 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, bat
     stats, lightest = batch.stats, batch.lightest
     seg.materialise()
     order = _order_categories(data, seg, stats[0]) if data.category_words else None
-    if not data.missing and many_class_applies(data, splitter):  # O(1) an element whatever the classes
-        return _many_class_splits(data, splitter, min_leaf, lightest, seg, items, stats[0], parent, out, order,
-                                  batch.work)
     elem = np.take(stats, seg.wi, axis=1, mode="clip")
     missing = _missing_totals(seg, elem) if data.missing else None
     cs, totals = running_sums(elem, seg.start, seg.cand_tree)
@@ -113,33 +114,6 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, bat
         out.missing_left[nodes] = np.where(seen[pick], to_left[pick], out.missing_left[nodes])
     if order is not None:
         _record_category_sets(out, order, nodes, seg.cand_of[e], seg.x[e], data.category_words)
-    return out
-
-
-def _many_class_splits(data, splitter, min_leaf, lightest, seg, items, weights, parent, out, order, work):
-    """:func:`best_splits` by :func:`.many_class_cut_scores` from the materialised (and, for categorical
-    candidates, re-sorted) segments."""
-    K = data.classes
-    item_class = np.take(data.target, items.row, mode="clip")
-    node_class = np.bincount(items.node * K + item_class, weights=np.take(weights, items.wi, mode="clip"),
-                             minlength=parent.size * K).astype(np.int64)
-    w = np.take(weights, seg.wi, mode="clip").astype(np.int32)
-    y = np.take(data.target, seg.row, mode="clip").astype(np.int32)
-    cand = seg.cand_of
-    class_total = np.take(node_class, np.take(seg.cand_node, cand, mode="clip") * K + y, mode="clip")
-    seg.no_cut = np.ones(seg.x.size, dtype=bool)  # (from the values: categorical elements were re-sorted)
-    np.less_equal(seg.x[1:], seg.x[:-1], out=seg.no_cut[:-1])
-    table = entropy_table(int(node_class.reshape(-1, K).sum(axis=1).max())) if type(splitter) is EntropySplitter \
-        else None
-    nodes, pick, _, sides = many_class_cut_scores(seg, cand, w, y, class_total, K, table, min_leaf, lightest, parent,
-                                                  TIE_TOLERANCE, work)
-    if nodes.size == 0:
-        return out
-    chosen = seg.candidate(pick)
-    decrease = splitter_decrease(splitter, seg, chosen, pick, w, y, K, parent[nodes])
-    record_cuts(seg, out, nodes, pick, decrease, sides[0] >= sides[1], chosen)
-    if order is not None:
-        _record_category_sets(out, order, nodes, chosen, seg.x[pick], data.category_words)
     return out
 
 
