@@ -110,9 +110,11 @@ def pick_cuts(seg, parent, base, tie, score, light, work: Workspace | None, at=N
     else:
         node_start = np.searchsorted(at, node_start)
     size = score.size
-    counts = np.diff(np.append(node_start, size))
     if size == 0:
         return nodes[:0], node_start[:0], score[:0]
+    counts = np.empty_like(node_start)  # elements of each node
+    np.subtract(node_start[1:], node_start[:-1], out=counts[:-1])
+    counts[-1] = size - node_start[-1]
     if counts.all():
         best = np.maximum.reduceat(score, node_start)
     else:  # (only where ``at`` skips a node: a pure one never reaches the search)

@@ -98,9 +98,10 @@ class FastPath:
         order, shape (K, 3))."""
         weight, summed, count = sides[:, 0], sides[:, 1], sides[:, 2]
         if self.kind == "binary":
-            c0 = weight - summed
-            return weight, np.column_stack([weight, c0, summed]), (summed > c0).astype(np.float64), \
-                (c0 == 0) | (summed == 0)
+            totals = np.empty((weight.size, 3))
+            totals[:, 0], totals[:, 2] = weight, summed
+            c0 = np.subtract(weight, summed, out=totals[:, 1])
+            return weight, totals, (summed > c0).astype(np.float64), (c0 == 0) | (summed == 0)
         # floating-point sums from the items, not from the parent's running sums (those carry the rounding of
         # the segments before theirs); the weights are the parent's when they are integers (no case weights)
         floats = self.columns[1:3] if data.weights is None else (self.columns[3], *self.columns[1:3])

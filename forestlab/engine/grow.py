@@ -17,7 +17,7 @@ from numpy.typing import NDArray
 from .bootstrap import draw_counts
 from .fast_search import FastPath, fast_path
 from .presort import TrainingData
-from .sampler import CandidateSampler, draw_masks
+from .sampler import CandidateSampler, TreeGenerators, draw_masks
 from .search import Items, Splits, best_splits, checked_impurity
 from .splitter import CartSplitter
 from .tree import NODE_STORAGE, Tree, goes_right
@@ -68,7 +68,7 @@ def grow_batch(data: TrainingData, rules: GrowthRules, seeds: list[np.random.See
     its own generator; every sum is taken within one tree, so a tree does not depend on its batch. ``work``
     lends scratch buffers that batches grown one after another may share.
     """
-    gens = [np.random.default_rng(s) for s in seeds]
+    gens = TreeGenerators(np.random.default_rng(s) for s in seeds)  # (RandomSubset's keys drawn ahead)
     n = data.rows
     counts = np.stack([draw_counts(g, n, rules.sample_size, rules.replace, data.strata) for g in gens])
     subspace = _tree_masks(rules.sampler, gens, data.features)
@@ -115,13 +115,17 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
     closed = pure | (weight < 2 * rules.min_leaf)
     if rules.depth_limit is not None and depth >= rules.depth_limit:
         closed[:] = True
-    open_nodes = np.flatnonzero(~closed)
-    splits = Splits.none(K, data.category_words)
-    if closed.any():  # from here on the items of the open nodes only: no second copy of the level's items
+    open_nodes = (~closed).nonzero()[0]
+    if open_nodes.size < K:  # from here on the items of the open nodes only: no second copy of the level's items
         _narrow(items, ~closed)
-    found = Splits.none(0, data.category_words)  # (the open nodes' splits, numbered among them)
-    if open_nodes.size:
+    if open_nodes.size:  # (the open nodes' splits, numbered among them)
         found = _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, open_nodes)
+    else:
+        found = Splits.none(0, data.category_words)
+    if open_nodes.size == K:
+        splits = found
+    else:
+        splits = Splits.none(K, data.category_words)
         splits.update(open_nodes, found)
     # breadth-first numbering: the children of a tree's j-th inner node are its nodes 2j+1 and 2j+2 (Tree.left)
     record = {
@@ -130,8 +134,8 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
         "cases": weight, "decrease": np.where(splits.found, splits.decrease, 0.0),
         "missing_left": splits.missing_left & splits.found, "category_left": splits.category_left,
     }
-    next_items = _partition(data, items, found, (2 * (np.cumsum(splits.found) - 1))[open_nodes])
-    inner = np.flatnonzero(splits.found)
+    next_items = _partition(data, items, found, (2 * (splits.found.cumsum() - 1))[open_nodes])
+    inner = splits.found.nonzero()[0]
     sides = None if batch.fast is None else splits.sides[inner].reshape(-1, 3)
     return record, next_items, np.repeat(node_tree[inner], 2), sides
 

@@ -64,7 +64,7 @@ class Segments:
     code_shift: int                # bits below the candidate in ``code``
     x: NDArray[np.float64] | None = None   # (L,) feature value (category position for categorical), NaN last
     wi: NDArray[np.int64] | None = None    # (L,) index of each element's (tree, row) in the weighted statistics
-    row: NDArray[np.int64] | None = None   # (L,) training row of each element
+    row: NDArray | None = None             # (L,) training row of each element (int32 from positions)
     _cand_of: NDArray[np.int64] | None = None
 
     @property
@@ -194,12 +194,11 @@ def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Wor
                                      out=scratch(work, "high32", L, np.uint32).reshape(m, N), mode="clip")
     code.sort()
     at = np.bitwise_and(code, (1 << bits) - 1, out=index, dtype=np.int64)
-    row32 = np.take(data.order.ravel(), at, out=scratch(work, "row32", L, np.int32), mode="clip")
-    row = index  # the positions are spent
-    np.copyto(row, row32)
-    if items.wi is items.row:  # one tree: a row is its own statistics index
-        wi = row
-    else:  # slot * n + row: the elements of a tree are contiguous, the trees in slot order
+    row = np.take(data.order.ravel(), at, out=scratch(work, "row32", L, np.int32), mode="clip")
+    if items.wi is items.row:  # one tree: a row is its own statistics index (int64: the positions are spent)
+        wi = index
+        np.copyto(wi, row)
+    else:  # slot * n + row: the elements of a tree are contiguous, the trees in slot order (rows kept int32)
         tree_start = run_starts(cand_tree)
         wi = np.repeat(cand_tree[tree_start] * n, np.add.reduceat(size, tree_start))
         wi += row
