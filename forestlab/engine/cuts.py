@@ -108,7 +108,7 @@ def pick_cuts(seg, parent, base, tie, score, light, work: Workspace | None, at=N
         score[seg.start[1:] - 1] = -np.inf
         score[-1] = -np.inf
     else:
-        node_start = np.searchsorted(at, node_start)
+        node_start = at.searchsorted(node_start)
     size = score.size
     if size == 0:
         return nodes[:0], node_start[:0], score[:0]
@@ -124,9 +124,9 @@ def pick_cuts(seg, parent, base, tie, score, light, work: Workspace | None, at=N
     bar = np.full(best.size, np.inf)  # (-inf arithmetic where nothing is found, but no inf - inf)
     np.subtract(best, tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes])), out=bar, where=found)
     spent = seg.no_cut if seg.no_cut is not None else scratch(work, "no_cut", size, np.bool_)
-    reached = np.greater_equal(score, np.repeat(bar, counts), out=spent[:size])
-    hit = np.flatnonzero(reached)
-    pick = hit[np.searchsorted(hit, node_start[found])]
+    reached = np.greater_equal(score, bar.repeat(counts), out=spent[:size])
+    hit = reached.nonzero()[0]
+    pick = hit[hit.searchsorted(node_start[found])]
     nodes = nodes[found]
     return nodes, pick, base[nodes] + score[pick]
 

@@ -190,7 +190,7 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
         left, total = _sums_at(seg, elem, at, cand_at, work)
         # the running sums are spent: where they fit, the right sums and the scores take their buffer
         spare = elem if 2 * at.size <= elem.size else None
-        right = np.take(total, cand_at, mode="clip", out=scratch(work, "right_at", at.size, total.dtype)
+        right = total.take(cand_at, mode="clip", out=scratch(work, "right_at", at.size, total.dtype)
                         if spare is None else spare[:at.size])
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
@@ -241,7 +241,7 @@ def _class_changes(seg, elem, work: Workspace | None) -> NDArray[np.intp]:
     np.not_equal(is_one[1:], is_one[:-1], out=change[:-1])
     change[-1] = False
     change[seg.start[1:] - 1] = False
-    return np.flatnonzero(change)
+    return change.nonzero()[0]
 
 
 def _class_boundaries(seg, elem, work: Workspace | None) -> NDArray[np.intp]:
@@ -284,13 +284,13 @@ def _sums_at(seg, elem, at, cand_at, work: Workspace | None):
     if elem.size >= _PACKED_LEVEL_LIMIT:
         left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
         return np.take(left, at, mode="clip"), total
-    running = np.cumsum(elem, out=elem)
-    end = np.take(running, seg.start + seg.size - 1, mode="clip")
+    running = elem.cumsum(out=elem)
+    end = running.take(seg.start + seg.size - 1, mode="clip")
     before = np.empty_like(end)  # the sum up to each segment: the previous one's end
     before[0] = 0
     before[1:] = end[:-1]
-    left = np.take(running, at, out=scratch(work, "left_at", at.size, running.dtype), mode="clip")
-    left -= np.take(before, cand_at, mode="clip")
+    left = running.take(at, out=scratch(work, "left_at", at.size, running.dtype), mode="clip")
+    left -= before.take(cand_at, mode="clip")
     return left, end - before
 
 
@@ -301,7 +301,7 @@ _PACKED_LEVEL_LIMIT = (1 << 31) // 255
 def _candidates_at(seg, element: NDArray[np.intp]) -> NDArray[np.int64]:
     """Candidate of each of the increasing ``element`` (read from the codes, which hold it in their high
     bits)."""
-    return np.right_shift(np.take(seg.code, element, mode="clip"), seg.code_shift).astype(np.int64, copy=False)
+    return np.right_shift(seg.code.take(element, mode="clip"), seg.code_shift).astype(np.int64, copy=False)
 
 
 def _half_gini_score(W, c1, out):

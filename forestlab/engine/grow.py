@@ -137,7 +137,7 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
     next_items = _partition(data, items, found, (2 * (splits.found.cumsum() - 1))[open_nodes])
     inner = splits.found.nonzero()[0]
     sides = None if batch.fast is None else splits.sides[inner].reshape(-1, 3)
-    return record, next_items, np.repeat(node_tree[inner], 2), sides
+    return record, next_items, node_tree[inner].repeat(2), sides
 
 
 def _node_summaries(data: TrainingData, batch, items: Items, K: int):
@@ -188,13 +188,13 @@ def _items_of(items: Items, keep: NDArray[np.bool_]) -> Items:
 def _narrow(items: Items, keep: NDArray[np.bool_]) -> None:
     """:func:`_items_of` in place: ``items`` holds afterwards only the items of the nodes where ``keep`` is
     True, those nodes numbered among themselves (the arrays it held are released one by one)."""
-    kept = np.flatnonzero(np.take(keep, items.node, mode="clip"))
+    kept = keep.take(items.node, mode="clip").nonzero()[0]
     one = items.wi is items.row  # (one tree: the same array)
-    items.row = np.take(items.row, kept, mode="clip")  # one array at a time, each released once replaced
-    items.wi = items.row if one else np.take(items.wi, kept, mode="clip")
-    items.node = np.take(items.node, kept, mode="clip")
+    items.row = items.row.take(kept, mode="clip")  # one array at a time, each released once replaced
+    items.wi = items.row if one else items.wi.take(kept, mode="clip")
+    items.node = items.node.take(kept, mode="clip")
     del kept
-    items.node = np.take(np.cumsum(keep) - 1, items.node, mode="clip")
+    items.node = (keep.cumsum() - 1).take(items.node, mode="clip")
 
 
 def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.bool_]:
@@ -208,16 +208,16 @@ def _partition(data: TrainingData, items: Items, splits: Splits, left_child: NDA
     """Send the items of split nodes to their children (order within each tree kept); ``splits`` and
     ``left_child`` (each node's left child in the next level) are indexed by ``items.node``."""
     found = splits.found
-    kept = items if found.all() else items.take(np.flatnonzero(np.take(found, items.node, mode="clip")))
+    kept = items if found.all() else items.take(found.take(items.node, mode="clip").nonzero()[0])
     row, node = kept.row, kept.node
     if data.missing or data.category_words:
         go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
                               splits.category_left, data.missing)
     else:  # numeric without gaps: above the cut's dense rank (the nodes' values lie on either side of it)
-        at = np.take(splits.feature * data.rows, node, mode="clip")
+        at = (splits.feature * data.rows).take(node, mode="clip")
         at += row
-        go_right = np.take(data.dense.ravel(), at, mode="clip") > np.take(splits.cut_rank, node, mode="clip")
-    return Items(row, np.take(left_child, node, mode="clip") + go_right, kept.wi)
+        go_right = data.dense.ravel().take(at, mode="clip") > splits.cut_rank.take(node, mode="clip")
+    return Items(row, left_child.take(node, mode="clip") + go_right, kept.wi)
 
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:

@@ -267,12 +267,12 @@ class TreeGenerators(list):
             grown = np.empty((len(self), max(2 * held, top), features))
             grown[:, :held] = self._keys
             self._keys, held = grown, grown.shape[1]
-        for t in np.flatnonzero(need > self._drawn).tolist():
+        for t in (need > self._drawn).nonzero()[0].tolist():
             self[t].random(out=self._keys[t, self._drawn[t]:])
             self._drawn[t] = held
         self._used = need
         if len(self) == 1:
             return self._keys[0, int(used[0]):top]
-        first = np.cumsum(nodes) - nodes
+        first = nodes.cumsum() - nodes
         rows = np.arange(int(first[-1] + nodes[-1])) + np.repeat(np.arange(len(self)) * held + used - first, nodes)
-        return np.take(self._keys.reshape(-1, features), rows, axis=0, mode="clip")
+        return self._keys.reshape(-1, features).take(rows, axis=0, mode="clip")
