@@ -286,9 +286,7 @@ def _sums_at(seg, elem, at, cand_at, work: Workspace | None):
         return np.take(left, at, mode="clip"), total
     running = elem.cumsum(out=elem)
     end = running.take(seg.start + seg.size - 1, mode="clip")
-    before = np.empty_like(end)  # the sum up to each segment: the previous one's end
-    before[0] = 0
-    before[1:] = end[:-1]
+    before = np.concatenate(([0], end[:-1]))  # the sum up to each segment: the previous one's end
     left = running.take(at, out=scratch(work, "left_at", at.size, running.dtype), mode="clip")
     left -= before.take(cand_at, mode="clip")
     return left, end - before

@@ -118,6 +118,8 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
     open_nodes = (~closed).nonzero()[0]
     if open_nodes.size < K:  # from here on the items of the open nodes only: no second copy of the level's items
         _narrow(items, ~closed)
+    if type(batch.fast) is FastPath:  # the open nodes' items, as their parents' cuts (or the items) counted them
+        items.size = sides[open_nodes, 2].astype(np.int64)
     if open_nodes.size:  # (the open nodes' splits, numbered among them)
         found = _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, open_nodes)
     else:
@@ -189,6 +191,7 @@ def _narrow(items: Items, keep: NDArray[np.bool_]) -> None:
     """:func:`_items_of` in place: ``items`` holds afterwards only the items of the nodes where ``keep`` is
     True, those nodes numbered among themselves (the arrays it held are released one by one)."""
     kept = keep.take(items.node, mode="clip").nonzero()[0]
+    items.size = None  # (the nodes are numbered anew)
     one = items.wi is items.row  # (one tree: the same array)
     items.row = items.row.take(kept, mode="clip")  # one array at a time, each released once replaced
     items.wi = items.row if one else items.wi.take(kept, mode="clip")

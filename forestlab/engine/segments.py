@@ -23,11 +23,13 @@ __all__ = ["Items", "Segments", "gather", "run_starts", "sorted_segments"]
 class Items:
     """The open (tree, row) pairs of one level; ``node`` indexes the level's open nodes, ``wi`` is
     ``slot * n + row``, the pair's column in the batch's weighted statistics (the same array as ``row`` in a
-    batch of one tree)."""
+    batch of one tree). ``size``, when known (a fast search's record of its parents' cuts), holds the items
+    of every node, which :func:`sorted_segments` then need not count."""
 
     row: NDArray[np.int64]
     node: NDArray[np.int64]
     wi: NDArray[np.int64]
+    size: NDArray[np.int64] | None = None
 
     def take(self, keep: NDArray[np.intp]) -> Items:
         row = self.row.take(keep, mode="clip")
@@ -106,7 +108,7 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
     cand_node, cand_feat = np.divmod(cand, p)
     ncand = np.bincount(cand_node, minlength=K)
     first = ncand.cumsum() - ncand
-    size = np.bincount(items.node, minlength=K)[cand_node]
+    size = (np.bincount(items.node, minlength=K) if items.size is None else items.size)[cand_node]
     start = size.cumsum() - size
     parts = (cand_node, cand_feat, node_tree[cand_node], start, size, first[ncand > 0])
     tie_free = data.tie_free is not None and bool(data.tie_free[cand_feat].all())
