@@ -81,9 +81,11 @@ class Segments:
         """Candidate of the given elements (segments are never empty)."""
         return self.start.searchsorted(element, side="right") - 1
 
-    def rows_of(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
-        """Training rows of the given elements."""
-        return self.items.row[self.item[element]] if self.row is None else self.row[element]
+    def rows_of(self, element: NDArray[np.intp]) -> NDArray[np.intp]:
+        """Training rows of the given elements, as ``intp`` (fancy indexing with int32 beside int64 indices
+        costs about 3 us a call more)."""
+        rows = self.items.row[self.item[element]] if self.row is None else self.row[element]
+        return rows.astype(np.intp, copy=False)
 
     def materialise(self) -> None:
         """Fill ``row``, ``wi`` and ``x`` (NaN for missing values) for the generic search."""
