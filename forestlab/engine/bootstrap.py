@@ -29,7 +29,7 @@ def draw_counts(rng: np.random.Generator, n: int, size: int, replace: bool,
         return draw_balanced_counts(rng, strata, size, replace)
     if replace:
         counts = np.bincount(rng.integers(0, n, size=size), minlength=n)
-        if counts.max() > MAX_COUNT:
+        if size > MAX_COUNT and counts.max() > MAX_COUNT:  # (no count exceeds the number of draws)
             raise ValueError(
                 f"`sample_size` = {size} draws from {n} cases put more than {MAX_COUNT} copies of one case "
                 f"in a sample; use a smaller `sample_size`"

@@ -79,7 +79,10 @@ _REPEAT_RUN = 1 << 15
 
 def per_node(seg, parent, values):
     """A (K,) array like ``parent`` holding ``values`` (one per node with candidates, from the totals of its
-    first candidate's segment) at those nodes, 0 elsewhere."""
+    first candidate's segment) at those nodes, 0 elsewhere (``values`` itself where every node has
+    candidates)."""
+    if seg.node_first.size == parent.size and values.dtype == parent.dtype:  # every node (in order)
+        return values
     out = np.zeros_like(parent)
     out[seg.cand_node[seg.node_first]] = values
     return out
@@ -108,11 +111,13 @@ def pick_cuts(seg, parent, base, tie, score, light, work: Workspace | None, at=N
         score[seg.start[1:] - 1] = -np.inf
         score[-1] = -np.inf
     else:
-        node_start = np.searchsorted(at, node_start)
+        node_start = at.searchsorted(node_start)
     size = score.size
-    counts = np.diff(np.append(node_start, size))
     if size == 0:
         return nodes[:0], node_start[:0], score[:0]
+    counts = np.empty_like(node_start)  # elements of each node
+    np.subtract(node_start[1:], node_start[:-1], out=counts[:-1])
+    counts[-1] = size - node_start[-1]
     if counts.all():
         best = np.maximum.reduceat(score, node_start)
     else:  # (only where ``at`` skips a node: a pure one never reaches the search)
@@ -120,11 +125,13 @@ def pick_cuts(seg, parent, base, tie, score, light, work: Workspace | None, at=N
         best[counts > 0] = np.maximum.reduceat(score, node_start[counts > 0])
     found = best > -np.inf
     bar = np.full(best.size, np.inf)  # (-inf arithmetic where nothing is found, but no inf - inf)
-    np.subtract(best, tie * np.maximum(np.abs(base[nodes] + best), np.abs(parent[nodes])), out=bar, where=found)
+    every = nodes.size == parent.size  # (then ``nodes`` is every node in order)
+    node_base, node_parent = (base, parent) if every else (base[nodes], parent[nodes])
+    np.subtract(best, tie * np.maximum(np.abs(node_base + best), np.abs(node_parent)), out=bar, where=found)
     spent = seg.no_cut if seg.no_cut is not None else scratch(work, "no_cut", size, np.bool_)
-    reached = np.greater_equal(score, np.repeat(bar, counts), out=spent[:size])
-    hit = np.flatnonzero(reached)
-    pick = hit[np.searchsorted(hit, node_start[found])]
+    reached = np.greater_equal(score, bar.repeat(counts), out=spent[:size])
+    hit = reached.nonzero()[0]
+    pick = hit[hit.searchsorted(node_start[found])]
     nodes = nodes[found]
     return nodes, pick, base[nodes] + score[pick]
 

@@ -99,9 +99,10 @@ class FastPath:
         order, shape (K, 3))."""
         weight, summed, count = sides[:, 0], sides[:, 1], sides[:, 2]
         if self.kind == "binary":
-            c0 = weight - summed
-            return weight, np.column_stack([weight, c0, summed]), (summed > c0).astype(np.float64), \
-                (c0 == 0) | (summed == 0)
+            totals = np.empty((weight.size, 3))
+            totals[:, 0], totals[:, 2] = weight, summed
+            c0 = np.subtract(weight, summed, out=totals[:, 1])
+            return weight, totals, (summed > c0).astype(np.float64), (c0 == 0) | (summed == 0)
         # floating-point sums from the items, not from the parent's running sums (those carry the rounding of
         # the segments before theirs); the weights are the parent's when they are integers (no case weights)
         floats = self.columns[1:3] if data.weights is None else (self.columns[3], *self.columns[1:3])
@@ -192,7 +193,7 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
         left, total = _sums_at(seg, elem, at, cand_at, work)
         # the running sums are spent: where they fit, the right sums and the scores take their buffer
         spare = elem if 2 * at.size <= elem.size else None
-        right = np.take(total, cand_at, mode="clip", out=scratch(work, "right_at", at.size, total.dtype)
+        right = total.take(cand_at, mode="clip", out=scratch(work, "right_at", at.size, total.dtype)
                         if spare is None else spare[:at.size])
     right -= left
     (wl, cl), (wr, cr) = _halves(left), _halves(right)
@@ -243,7 +244,7 @@ def _class_changes(seg, elem, work: Workspace | None) -> NDArray[np.intp]:
     np.not_equal(is_one[1:], is_one[:-1], out=change[:-1])
     change[-1] = False
     change[seg.start[1:] - 1] = False
-    return np.flatnonzero(change)
+    return change.nonzero()[0]
 
 
 def _class_boundaries(seg, elem, work: Workspace | None) -> NDArray[np.intp]:
@@ -286,13 +287,11 @@ def _sums_at(seg, elem, at, cand_at, work: Workspace | None):
     if elem.size >= _PACKED_LEVEL_LIMIT:
         left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
         return np.take(left, at, mode="clip"), total
-    running = np.cumsum(elem, out=elem)
-    end = np.take(running, seg.start + seg.size - 1, mode="clip")
-    before = np.empty_like(end)  # the sum up to each segment: the previous one's end
-    before[0] = 0
-    before[1:] = end[:-1]
-    left = np.take(running, at, out=scratch(work, "left_at", at.size, running.dtype), mode="clip")
-    left -= np.take(before, cand_at, mode="clip")
+    running = elem.cumsum(out=elem)
+    end = running.take(seg.start + seg.size - 1, mode="clip")
+    before = np.concatenate(([0], end[:-1]))  # the sum up to each segment: the previous one's end
+    left = running.take(at, out=scratch(work, "left_at", at.size, running.dtype), mode="clip")
+    left -= before.take(cand_at, mode="clip")
     return left, end - before
 
 
@@ -303,7 +302,7 @@ _PACKED_LEVEL_LIMIT = (1 << 31) // 255
 def _candidates_at(seg, element: NDArray[np.intp]) -> NDArray[np.int64]:
     """Candidate of each of the increasing ``element`` (read from the codes, which hold it in their high
     bits)."""
-    return np.right_shift(np.take(seg.code, element, mode="clip"), seg.code_shift).astype(np.int64, copy=False)
+    return np.right_shift(seg.code.take(element, mode="clip"), seg.code_shift).astype(np.int64, copy=False)
 
 
 def _half_gini_score(W, c1, out):

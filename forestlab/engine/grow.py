@@ -17,7 +17,7 @@ from numpy.typing import NDArray
 from .bootstrap import draw_counts
 from .fast_search import FastPath, fast_path
 from .presort import TrainingData
-from .sampler import CandidateSampler, draw_masks
+from .sampler import CandidateSampler, TreeGenerators, draw_masks
 from .search import Items, Splits, best_splits, checked_impurity
 from .splitter import CartSplitter
 from .tree import NODE_STORAGE, Tree, goes_right
@@ -68,7 +68,7 @@ def grow_batch(data: TrainingData, rules: GrowthRules, seeds: list[np.random.See
     its own generator; every sum is taken within one tree, so a tree does not depend on its batch. ``work``
     lends scratch buffers that batches grown one after another may share.
     """
-    gens = [np.random.default_rng(s) for s in seeds]
+    gens = TreeGenerators(np.random.default_rng(s) for s in seeds)  # (RandomSubset's keys drawn ahead)
     n = data.rows
     counts = np.stack([draw_counts(g, n, rules.sample_size, rules.replace, data.strata) for g in gens])
     subspace = _tree_masks(rules.sampler, gens, data.features)
@@ -115,13 +115,19 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
     closed = pure | (weight < 2 * rules.min_leaf)
     if rules.depth_limit is not None and depth >= rules.depth_limit:
         closed[:] = True
-    open_nodes = np.flatnonzero(~closed)
-    splits = Splits.none(K, data.category_words)
-    if closed.any():  # from here on the items of the open nodes only: no second copy of the level's items
+    open_nodes = (~closed).nonzero()[0]
+    if open_nodes.size < K:  # from here on the items of the open nodes only: no second copy of the level's items
         _narrow(items, ~closed)
-    found = Splits.none(0, data.category_words)  # (the open nodes' splits, numbered among them)
-    if open_nodes.size:
+    if type(batch.fast) is FastPath:  # the open nodes' items, as their parents' cuts (or the items) counted them
+        items.size = sides[open_nodes, 2].astype(np.int64)
+    if open_nodes.size:  # (the open nodes' splits, numbered among them)
         found = _search_open(data, rules, gens, subspace, batch, items, node_tree, totals, weight, open_nodes)
+    else:
+        found = Splits.none(0, data.category_words)
+    if open_nodes.size == K:
+        splits = found
+    else:
+        splits = Splits.none(K, data.category_words)
         splits.update(open_nodes, found)
     # breadth-first numbering: the children of a tree's j-th inner node are its nodes 2j+1 and 2j+2 (Tree.left)
     record = {
@@ -130,10 +136,10 @@ def _grow_level(data, rules, gens, subspace, batch, items, node_tree, depth, sid
         "cases": weight, "decrease": np.where(splits.found, splits.decrease, 0.0),
         "missing_left": splits.missing_left & splits.found, "category_left": splits.category_left,
     }
-    next_items = _partition(data, items, found, (2 * (np.cumsum(splits.found) - 1))[open_nodes])
-    inner = np.flatnonzero(splits.found)
+    next_items = _partition(data, items, found, (2 * (splits.found.cumsum() - 1))[open_nodes])
+    inner = splits.found.nonzero()[0]
     sides = None if batch.fast is None else splits.sides[inner].reshape(-1, 3)
-    return record, next_items, np.repeat(node_tree[inner], 2), sides
+    return record, next_items, node_tree[inner].repeat(2), sides
 
 
 def _node_summaries(data: TrainingData, batch, items: Items, K: int):
@@ -184,13 +190,14 @@ def _items_of(items: Items, keep: NDArray[np.bool_]) -> Items:
 def _narrow(items: Items, keep: NDArray[np.bool_]) -> None:
     """:func:`_items_of` in place: ``items`` holds afterwards only the items of the nodes where ``keep`` is
     True, those nodes numbered among themselves (the arrays it held are released one by one)."""
-    kept = np.flatnonzero(np.take(keep, items.node, mode="clip"))
+    kept = keep.take(items.node, mode="clip").nonzero()[0]
+    items.size = None  # (the nodes are numbered anew)
     one = items.wi is items.row  # (one tree: the same array)
-    items.row = np.take(items.row, kept, mode="clip")  # one array at a time, each released once replaced
-    items.wi = items.row if one else np.take(items.wi, kept, mode="clip")
-    items.node = np.take(items.node, kept, mode="clip")
+    items.row = items.row.take(kept, mode="clip")  # one array at a time, each released once replaced
+    items.wi = items.row if one else items.wi.take(kept, mode="clip")
+    items.node = items.node.take(kept, mode="clip")
     del kept
-    items.node = np.take(np.cumsum(keep) - 1, items.node, mode="clip")
+    items.node = (keep.cumsum() - 1).take(items.node, mode="clip")
 
 
 def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.bool_]:
@@ -204,16 +211,16 @@ def _partition(data: TrainingData, items: Items, splits: Splits, left_child: NDA
     """Send the items of split nodes to their children (order within each tree kept); ``splits`` and
     ``left_child`` (each node's left child in the next level) are indexed by ``items.node``."""
     found = splits.found
-    kept = items if found.all() else items.take(np.flatnonzero(np.take(found, items.node, mode="clip")))
+    kept = items if found.all() else items.take(found.take(items.node, mode="clip").nonzero()[0])
     row, node = kept.row, kept.node
     if data.missing or data.category_words:
         go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
                               splits.category_left, data.missing)
     else:  # numeric without gaps: above the cut's dense rank (the nodes' values lie on either side of it)
-        at = np.take(splits.feature * data.rows, node, mode="clip")
+        at = (splits.feature * data.rows).take(node, mode="clip")
         at += row
-        go_right = np.take(data.dense.ravel(), at, mode="clip") > np.take(splits.cut_rank, node, mode="clip")
-    return Items(row, np.take(left_child, node, mode="clip") + go_right, kept.wi)
+        go_right = data.dense.ravel().take(at, mode="clip") > splits.cut_rank.take(node, mode="clip")
+    return Items(row, left_child.take(node, mode="clip") + go_right, kept.wi)
 
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:

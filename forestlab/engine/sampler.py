@@ -18,7 +18,8 @@ from numpy.typing import NDArray
 from .._warnings import CandidatesCappedWarning
 from .component import Component
 
-__all__ = ["CandidateSampler", "AllFeatures", "RandomSubset", "TreeSubspace", "checked_mask", "draw_masks"]
+__all__ = ["CandidateSampler", "AllFeatures", "RandomSubset", "TreeSubspace", "TreeGenerators", "checked_mask",
+           "draw_masks"]
 
 _NAMED_SIZES = ("log2", "sqrt")
 
@@ -222,10 +223,56 @@ def draw_masks(sampler: CandidateSampler, gens: list[np.random.Generator], nodes
         m = candidate_count(sampler.m, features, "classification")
         if m >= features:
             return np.ones((int(np.sum(nodes)), features), dtype=bool)
-        live = np.flatnonzero(nodes)
-        ends = np.cumsum(nodes[live])
-        keys = np.empty((int(ends[-1]) if ends.size else 0, features))
-        for t, lo, hi in zip(live.tolist(), (ends - nodes[live]).tolist(), ends.tolist()):
-            gens[t].random(out=keys[lo:hi])  # the same numbers as ``random((hi - lo, features))``
+        if isinstance(gens, TreeGenerators):
+            keys = gens.uniform_rows(nodes, features)
+        else:
+            live = np.flatnonzero(nodes)
+            ends = np.cumsum(nodes[live])
+            keys = np.empty((int(ends[-1]) if ends.size else 0, features))
+            for t, lo, hi in zip(live.tolist(), (ends - nodes[live]).tolist(), ends.tolist()):
+                gens[t].random(out=keys[lo:hi])  # the same numbers as ``random((hi - lo, features))``
         return keys <= np.partition(keys, m - 1, axis=1)[:, m - 1:m]
     return np.concatenate([checked_mask(sampler, gens[t], int(k), features) for t, k in enumerate(nodes) if k])
+
+
+class TreeGenerators(list):
+    """The generators of a batch's trees in slot order (a list), which also draw :class:`RandomSubset`'s
+    uniform keys ahead of the levels that use them.
+
+    A generator's doubles come one after another however many each call takes, so a tree's keys drawn a
+    chunk at a time (a few dozen nodes' rows, doubling) are the numbers one ``random`` call per level would
+    give; nothing else draws from a tree's generator once its levels begin (the bootstrap sample comes first),
+    and the keys drawn beyond the last level are never used. One call per tree every few levels instead of
+    one per tree and level (about 0.6 us each): at n = 1 000 a batch of 64 trees makes about 700 calls less.
+    """
+
+    #: Rows (nodes) of keys a tree draws first; each further draw doubles the rows held
+    FIRST_ROWS = 32
+
+    def __init__(self, gens) -> None:
+        super().__init__(gens)
+        self._keys: NDArray[np.float64] | None = None  # (trees, rows, features), rows drawn[t] onwards unset
+        self._drawn = np.zeros(len(self), dtype=np.int64)
+        self._used = np.zeros(len(self), dtype=np.int64)
+
+    def uniform_rows(self, nodes: NDArray[np.int64], features: int) -> NDArray[np.float64]:
+        """The next ``nodes[t]`` rows of ``features`` uniform keys of every tree ``t``, stacked in tree order:
+        what ``self[t].random((nodes[t], features))`` would give, tree after tree."""
+        used, need = self._used, self._used + nodes
+        top = int(need.max())
+        if self._keys is None:
+            self._keys = np.empty((len(self), max(self.FIRST_ROWS, top), features))
+        held = self._keys.shape[1]
+        if top > held:  # room for the longest tree: the rows held doubled (or as many as it needs)
+            grown = np.empty((len(self), max(2 * held, top), features))
+            grown[:, :held] = self._keys
+            self._keys, held = grown, grown.shape[1]
+        for t in (need > self._drawn).nonzero()[0].tolist():
+            self[t].random(out=self._keys[t, self._drawn[t]:])
+            self._drawn[t] = held
+        self._used = need
+        if len(self) == 1:
+            return self._keys[0, int(used[0]):top]
+        first = nodes.cumsum() - nodes
+        rows = np.arange(int(first[-1] + nodes[-1])) + np.repeat(np.arange(len(self)) * held + used - first, nodes)
+        return self._keys.reshape(-1, features).take(rows, axis=0, mode="clip")

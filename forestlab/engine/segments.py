@@ -23,16 +23,18 @@ __all__ = ["Items", "Segments", "gather", "run_starts", "sorted_segments"]
 class Items:
     """The open (tree, row) pairs of one level; ``node`` indexes the level's open nodes, ``wi`` is
     ``slot * n + row``, the pair's column in the batch's weighted statistics (the same array as ``row`` in a
-    batch of one tree)."""
+    batch of one tree). ``size``, when known (a fast search's record of its parents' cuts), holds the items
+    of every node, which :func:`sorted_segments` then need not count."""
 
     row: NDArray[np.int64]
     node: NDArray[np.int64]
     wi: NDArray[np.int64]
+    size: NDArray[np.int64] | None = None
 
     def take(self, keep: NDArray[np.intp]) -> Items:
-        row = np.take(self.row, keep, mode="clip")
-        wi = row if self.wi is self.row else np.take(self.wi, keep, mode="clip")
-        return Items(row, np.take(self.node, keep, mode="clip"), wi)
+        row = self.row.take(keep, mode="clip")
+        wi = row if self.wi is self.row else self.wi.take(keep, mode="clip")
+        return Items(row, self.node.take(keep, mode="clip"), wi)
 
 
 @dataclass
@@ -64,7 +66,7 @@ class Segments:
     code_shift: int                # bits below the candidate in ``code``
     x: NDArray[np.float64] | None = None   # (L,) feature value (category position for categorical), NaN last
     wi: NDArray[np.int64] | None = None    # (L,) index of each element's (tree, row) in the weighted statistics
-    row: NDArray[np.int64] | None = None   # (L,) training row of each element
+    row: NDArray | None = None             # (L,) training row of each element (int32 from positions)
     _cand_of: NDArray[np.int64] | None = None
 
     @property
@@ -77,11 +79,13 @@ class Segments:
 
     def candidate(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
         """Candidate of the given elements (segments are never empty)."""
-        return np.searchsorted(self.start, element, side="right") - 1
+        return self.start.searchsorted(element, side="right") - 1
 
-    def rows_of(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
-        """Training rows of the given elements."""
-        return self.items.row[self.item[element]] if self.row is None else self.row[element]
+    def rows_of(self, element: NDArray[np.intp]) -> NDArray[np.intp]:
+        """Training rows of the given elements, as ``intp`` (fancy indexing with int32 beside int64 indices
+        costs about 3 us a call more)."""
+        rows = self.items.row[self.item[element]] if self.row is None else self.row[element]
+        return rows.astype(np.intp, copy=False)
 
     def materialise(self) -> None:
         """Fill ``row``, ``wi`` and ``x`` (NaN for missing values) for the generic search."""
@@ -105,9 +109,9 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
     K = mask.shape[0]
     cand_node, cand_feat = np.divmod(cand, p)
     ncand = np.bincount(cand_node, minlength=K)
-    first = np.cumsum(ncand) - ncand
-    size = np.bincount(items.node, minlength=K)[cand_node]
-    start = np.cumsum(size) - size
+    first = ncand.cumsum() - ncand
+    size = (np.bincount(items.node, minlength=K) if items.size is None else items.size)[cand_node]
+    start = size.cumsum() - size
     parts = (cand_node, cand_feat, node_tree[cand_node], start, size, first[ncand > 0])
     tie_free = data.tie_free is not None and bool(data.tie_free[cand_feat].all())
     if by_position and tie_free and _positions_fit(data, cand_feat, ncand):
@@ -142,9 +146,9 @@ def gather(values: NDArray, index: NDArray, out: NDArray) -> NDArray:
     """``np.take(values, index, out=out, mode="clip")``; an index array that is not ``intp`` is read
     ``_GATHER_BLOCK`` elements at a time (``np.take`` would cast the whole array to a temporary first)."""
     if index.dtype == np.intp or index.size <= _GATHER_BLOCK:
-        return np.take(values, index, out=out, mode="clip")
+        return values.take(index, out=out, mode="clip")
     for lo in range(0, index.size, _GATHER_BLOCK):
-        np.take(values, index[lo:lo + _GATHER_BLOCK], out=out[lo:lo + _GATHER_BLOCK], mode="clip")
+        values.take(index[lo:lo + _GATHER_BLOCK], out=out[lo:lo + _GATHER_BLOCK], mode="clip")
     return out
 
 
@@ -171,7 +175,7 @@ def _positions_fit(data: TrainingData, cand_feat, ncand) -> bool:
     if data.order is None or cand_feat.size == 0:
         return False
     m = int(ncand[0])
-    return m > 0 and (cand_feat.size - 1).bit_length() + _position_bits(data) <= 32 and bool(np.all(ncand == m))
+    return m > 0 and (cand_feat.size - 1).bit_length() + _position_bits(data) <= 32 and bool((ncand == m).all())
 
 
 def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Workspace | None) -> Segments:
@@ -190,18 +194,17 @@ def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Wor
     index, ranks = _slot_ranks(data, items, cand_feat, m, work)
     index, code = index.ravel(), ranks.ravel().view(np.uint32)
     high = ((np.arange(cand_feat.size, dtype=np.uint32) << bits) + (cand_feat * n).astype(np.uint32))
-    code.reshape(m, N)[:] += np.take(high.reshape(-1, m).T, items.node, axis=1,
+    code.reshape(m, N)[:] += high.reshape(-1, m).T.take(items.node, axis=1,
                                      out=scratch(work, "high32", L, np.uint32).reshape(m, N), mode="clip")
     code.sort()
     at = np.bitwise_and(code, (1 << bits) - 1, out=index, dtype=np.int64)
-    row32 = np.take(data.order.ravel(), at, out=scratch(work, "row32", L, np.int32), mode="clip")
-    row = index  # the positions are spent
-    np.copyto(row, row32)
-    if items.wi is items.row:  # one tree: a row is its own statistics index
-        wi = row
-    else:  # slot * n + row: the elements of a tree are contiguous, the trees in slot order
+    row = data.order.ravel().take(at, out=scratch(work, "row32", L, np.int32), mode="clip")
+    if items.wi is items.row:  # one tree: a row is its own statistics index (int64: the positions are spent)
+        wi = index
+        np.copyto(wi, row)
+    else:  # slot * n + row: the elements of a tree are contiguous, the trees in slot order (rows kept int32)
         tree_start = run_starts(cand_tree)
-        wi = np.repeat(cand_tree[tree_start] * n, np.add.reduceat(size, tree_start))
+        wi = (cand_tree[tree_start] * n).repeat(np.add.reduceat(size, tree_start))
         wi += row
     return Segments(*parts, None, code, None, items, data, bits, wi=wi, row=row)
 
@@ -247,9 +250,9 @@ def _slot_ranks(data: TrainingData, items: Items, cand_feat, m: int, work: Works
     caller may reuse it). Both are views of scratch buffers (``key`` and ``rank``)."""
     N = items.row.size
     index = scratch(work, "key", m * N, np.int64).reshape(m, N)
-    np.take(cand_feat.reshape(-1, m).T * data.rows, items.node, axis=1, out=index, mode="clip")
+    (cand_feat.reshape(-1, m).T * data.rows).take(items.node, axis=1, out=index, mode="clip")
     index += items.row
-    ranks = np.take(data.dense.ravel(), index, out=scratch(work, "rank", m * N, data.dense.dtype).reshape(m, N),
+    ranks = data.dense.ravel().take(index, out=scratch(work, "rank", m * N, data.dense.dtype).reshape(m, N),
                     mode="clip")
     return index, ranks
 
@@ -259,4 +262,4 @@ def run_starts(values: NDArray) -> NDArray[np.intp]:
     change = np.empty(values.size, dtype=bool)
     change[0] = True
     np.not_equal(values[1:], values[:-1], out=change[1:])
-    return np.flatnonzero(change)
+    return change.nonzero()[0]

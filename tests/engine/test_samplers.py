@@ -274,3 +274,24 @@ def test_batched_draws_equal_one_draw_per_tree():
         together = draw_masks(sampler, [np.random.default_rng(s) for s in range(4)], nodes, 10)
         alone = np.concatenate([sampler.draw(np.random.default_rng(s), int(k), 10) for s, k in enumerate(nodes)])
         np.testing.assert_array_equal(together, alone)
+
+
+def test_keys_drawn_ahead_equal_one_draw_per_tree_and_level():
+    # the engine's TreeGenerators draw RandomSubset's keys a chunk at a time ahead of the levels; every
+    # level's masks must be those of one `draw` call per tree and level on plain generators (first rows of
+    # 32, then doubling: these node counts cross several chunk ends, some trees idle on some levels)
+    from forestlab.engine.sampler import TreeGenerators, draw_masks
+
+    levels = [np.array(k) for k in ([1, 1, 1], [2, 2, 0], [4, 3, 0], [8, 0, 0], [16, 5, 0], [31, 9, 0],
+                                     [64, 1, 0], [3, 40, 0], [0, 2, 0])]
+    for sampler in (fl.RandomSubset(3), fl.RandomSubset(1), fl.RandomSubset(9)):
+        ahead = TreeGenerators(np.random.default_rng(s) for s in (7, 8, 9))
+        plain = [np.random.default_rng(s) for s in (7, 8, 9)]
+        for nodes in levels:
+            got = draw_masks(sampler, ahead, nodes, 10)
+            want = np.concatenate([sampler.draw(plain[t], int(k), 10) for t, k in enumerate(nodes)])
+            np.testing.assert_array_equal(got, want)
+        one = TreeGenerators([np.random.default_rng(7)])
+        alone = np.random.default_rng(7)
+        for k in (1, 2, 40, 3, 100):
+            np.testing.assert_array_equal(draw_masks(sampler, one, np.array([k]), 10), sampler.draw(alone, k, 10))
