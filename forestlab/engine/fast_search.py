@@ -76,7 +76,8 @@ class FastPath:
         del column  # (the items' values: not held through the search)
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)
-        return squared_error_best_splits(seg, min_leaf, lightest, elem, parent, out, tie, work)
+        return squared_error_best_splits(seg, min_leaf, lightest, elem, parent, out, tie, work,
+                                         whole_weights=self.data.weights is None)
 
     def sides(self, items, K: int) -> NDArray[np.float64]:
         """What :meth:`summaries` reads from the parents' cuts, summed over the items instead (K, 3): the
