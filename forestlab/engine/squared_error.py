@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .cuts import light_reach, per_node, pick_cuts, record_cuts, record_sides, segment_ends
+from .cuts import light_reach, per_node, pick_cuts, record_cuts, record_sides
 from .running import running_sums
 from .workspace import Workspace, scratch
 
@@ -92,10 +92,25 @@ def _squared_error_scores(seg, left, weight, min_leaf: float, lightest: float, w
                 bar *= np.inf
                 np.minimum(score[a:b], bar, out=score[a:b])
     if reach:  # long segments: only the elements near their ends can leave a side too light
-        near = segment_ends(seg, reach)
-        lw = left_w[near]
-        light = near[np.minimum(lw, np.take(weight, seg.candidate(near), mode="clip") - lw) < min_leaf]
+        light = _light_near_ends(seg, left_w, weight, min_leaf, reach)
     return score, light
+
+
+def _light_near_ends(seg, left_w, weight, min_leaf: float, reach: int):
+    """The elements among the first ``reach`` and the last ``reach + 1`` of every segment (those of
+    :func:`.segment_ends`) whose cut leaves a side lighter than ``min_leaf`` (possibly repeated where a
+    segment is short), from the running weights ``left_w`` and the segments' weights ``weight``.
+
+    Every item weighs at least ``min_leaf / reach``, so the ``j``-th element of a segment has ``W_l >= (j + 1)
+    min_leaf / reach`` and the ``j``-th from its end ``W_r >= j min_leaf / reach``: no other element is light.
+    Formed as (segments, ``2 reach + 1``) arrays, each element's segment known from its row (no search for
+    it, no compaction of the overlaps).
+    """
+    first, last = seg.start[:, None], (seg.start + seg.size - 1)[:, None]
+    steps = np.arange(reach + 1)
+    near = np.concatenate([np.minimum(first + steps[:-1], last), np.maximum(last - steps, first)], axis=1)
+    lw = left_w[near]
+    return near[np.minimum(lw, weight[:, None] - lw) < min_leaf]
 
 
 def _light_bars(weight, min_leaf: float):

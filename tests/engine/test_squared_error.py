@@ -67,3 +67,24 @@ def test_light_bars_mark_exactly_the_light_cuts(weight):
         for left in np.arange(0.0, weight + 1.0):
             light = min(left, weight - left) < min_leaf
             assert (left * (weight - left) < bar) == light, (weight, min_leaf, left)
+
+
+@pytest.mark.parametrize("whole", [True, False])
+def test_light_near_ends_finds_every_light_cut(whole):
+    """Brute force over random segments (1-40 elements, whole or fractional weights of at least
+    ``lightest``): the elements ``_light_near_ends`` returns are exactly those whose cut leaves less than
+    ``min_leaf`` on a side (the segment's last element included)."""
+    rng = np.random.default_rng(8)
+    size = rng.integers(1, 41, size=60)
+    start = np.cumsum(size) - size
+    w = rng.integers(1, 4, size=size.sum()).astype(float) if whole else rng.uniform(0.5, 3.0, size=size.sum())
+    lightest = float(w.min())
+    left = np.concatenate([np.cumsum(w[a:a + k]) for a, k in zip(start, size)])
+    weight = np.add.reduceat(w, start)
+    seg = type("Seg", (), {"start": start, "size": size})()
+    for min_leaf in (1.0, 2.0, 2.5, 4.0, 7.0):
+        reach = int(np.ceil(min_leaf / lightest))
+        found = set(squared_error._light_near_ends(seg, left, weight, min_leaf, reach).tolist())
+        total = np.repeat(weight, size)
+        expected = set(np.flatnonzero(np.minimum(left, total - left) < min_leaf).tolist())
+        assert found == expected, min_leaf
