@@ -71,7 +71,7 @@ def _squared_error_scores(seg, left, weight, min_leaf: float, lightest: float, w
     light = scratch(work, "light", L, np.bool_) if reach == 0 else None
     by_gather = C * _GATHER_RUN > L  # short segments: a gather by candidate, else each weight repeated
     ends = seg.start + seg.size
-    cuts = np.searchsorted(ends, np.arange(_SCORE_RUN, L, _SCORE_RUN), side="right").tolist()
+    cuts = [] if L <= _SCORE_RUN else np.searchsorted(ends, np.arange(_SCORE_RUN, L, _SCORE_RUN), side="right").tolist()
     with np.errstate(divide="ignore", invalid="ignore"):  # (segment ends: masked by the pick)
         for lo, hi in zip([0, *cuts], [*cuts, C]):
             if hi <= lo:
