@@ -66,7 +66,7 @@ def _squared_error_scores(seg, left, weight, min_leaf: float, lightest: float, w
     score = scratch(work, "score", L, np.float64)
     reach = None if min_leaf <= lightest else light_reach(seg, L, min_leaf, lightest)
     bars = None
-    if whole_weights and reach is not None and L < C * _ENDS_RUN:  # light cuts from the products, per piece
+    if whole_weights and reach is not None and _GATE_LEVEL <= L < C * _ENDS_RUN:  # light cuts from the products
         bars, reach = _light_bars(weight, min_leaf), None
     light = scratch(work, "light", L, np.bool_) if reach == 0 else None
     by_gather = C * _GATHER_RUN > L  # short segments: a gather by candidate, else each weight repeated
@@ -132,6 +132,8 @@ _SCORE_RUN = 1 << 15
 #: With whole weights, levels whose segments average fewer elements than this find their light cuts from
 #: the products in every piece (a few operations an element); longer ones at the segment ends only
 _ENDS_RUN = 128
+#: ... on levels of at least this many elements (on smaller ones the few more calls cost more than they save)
+_GATE_LEVEL = 4096
 #: Segments averaging fewer elements than this get their weights by a gather by candidate, not a repeat
 _GATHER_RUN = 12
 

@@ -42,14 +42,16 @@ def test_scores_in_pieces_grow_the_same_trees(monkeypatch, run, weighted, min_le
 @pytest.mark.parametrize("ends_run", [0, 1 << 40])
 def test_light_cuts_from_the_products_grow_the_same_trees(monkeypatch, min_leaf, ends_run):
     """Without case weights, the light cuts of short segments come from ``W_l * W_r`` against a bar per
-    segment (``squared_error._light_bars``); found instead by the segment ends (``_ENDS_RUN = 0``) or on
-    every level (a huge ``_ENDS_RUN``), the trees are the same bit for bit, also for a ``min_leaf`` that is no
-    whole number (2.5: nodes of weight 5 have no valid cut at all)."""
+    segment (``squared_error._light_bars``); found that way on every level (a huge ``_ENDS_RUN``, no
+    ``_GATE_LEVEL``) or never (``_ENDS_RUN = 0``), the trees equal those of the default (on levels this small:
+    the mask of every element) bit for bit, also for a ``min_leaf`` that is no whole number (2.5: nodes of
+    weight 5 have no valid cut at all)."""
     rng = np.random.default_rng(3)
     X = rng.normal(size=(500, 3))
     y = X[:, 0] - 2.0 * (X[:, 1] > 0.3) + 0.5 * rng.normal(size=500)
     reference = _forest(X, y, None, min_leaf)
     monkeypatch.setattr(squared_error, "_ENDS_RUN", ends_run)
+    monkeypatch.setattr(squared_error, "_GATE_LEVEL", 0)  # (levels of this data hold fewer elements)
     other = _forest(X, y, None, min_leaf)
     assert reference.tree(0).feature.size > 20
     for i in range(reference.trees):
