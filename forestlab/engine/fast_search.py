@@ -48,10 +48,10 @@ class FastPath:
     """A batch's statistics packed for one of the specialised searches, one entry per (slot, row).
 
     ``kind`` is ``"binary"`` (``columns = (W + c1 * 2**32,)``, int64) or ``"squared_error"`` (``columns =
-    (W + 1j * S1, S1, S2)`` and, with case weights, ``W`` last: the case weight (the bootstrap count when
-    there are no case weights) and the weighted centred target as one complex128 for the search, and the
-    weighted centred target, its square and the weight as contiguous float64 for the node sums, which
-    gather them faster than the parts of the complex column).
+    (W + 1j * S1, S1 + 1j * S2)`` and, with case weights, ``W`` last: the case weight (the bootstrap count
+    when there are no case weights) and the weighted centred target as one complex128 for the search, the
+    weighted centred target and its square as another for the node sums (both parts added with one gather
+    and one ``np.add.at``), and the weight as a contiguous float64).
     """
 
     kind: str
@@ -77,7 +77,8 @@ class FastPath:
         del column  # (the items' values: not held through the search)
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)
-        return squared_error_best_splits(seg, min_leaf, lightest, elem, parent, out, tie, work)
+        return squared_error_best_splits(seg, min_leaf, lightest, elem, parent, out, tie, work,
+                                         whole_weights=self.data.weights is None)
 
     def sides(self, items, K: int) -> NDArray[np.float64]:
         """What :meth:`summaries` reads from the parents' cuts, summed over the items instead (K, 3): the
@@ -88,7 +89,7 @@ class FastPath:
             out[:, 0] = np.bincount(items.node, weights=low, minlength=K)
             out[:, 1] = np.bincount(items.node, weights=high, minlength=K)
         elif self.data.weights is None:  # (with case weights the summaries sum the weights themselves)
-            weight = np.take(self.columns[0].real, items.wi, mode="clip")
+            weight = np.take(self.columns[0], items.wi, mode="clip").real  # (a strided part would be copied whole)
             out[:, 0] = np.bincount(items.node, weights=weight, minlength=K)
         out[:, 2] = np.bincount(items.node, minlength=K)
         return out
@@ -105,11 +106,10 @@ class FastPath:
             return weight, totals, (summed > c0).astype(np.float64), (c0 == 0) | (summed == 0)
         # floating-point sums from the items, not from the parent's running sums (those carry the rounding of
         # the segments before theirs); the weights are the parent's when they are integers (no case weights)
-        floats = self.columns[1:3] if data.weights is None else (self.columns[3], *self.columns[1:3])
-        sums = [np.bincount(items.node, weights=np.take(c, items.wi, mode="clip"), minlength=K) for c in floats]
+        moments = _summed(items.node, np.take(self.columns[1], items.wi, mode="clip"), K)
         if data.weights is not None:
-            weight = sums.pop(0)
-        summed, second = sums
+            weight = _summed(items.node, np.take(self.columns[2], items.wi, mode="clip"), K)
+        summed, second = moments.real, moments.imag
         value = summed / weight + self.centre
         return weight, np.column_stack([weight, summed, second]), value, data.equal_targets(items.row, items.node,
                                                                                              K, count)
@@ -135,11 +135,24 @@ def fast_path(data: TrainingData, splitter: CartSplitter,
         first = counts * data.stats[:, 1]
         ws = np.empty(counts.shape, dtype=np.complex128)
         ws.real, ws.imag = weight, first
-        columns = (ws.ravel(), first.ravel(), (counts * data.stats[:, 2]).ravel())
+        moments = np.empty(counts.shape, dtype=np.complex128)
+        moments.real, moments.imag = first, counts * data.stats[:, 2]
+        columns = (ws.ravel(), moments.ravel())
         if data.weights is not None:
             columns += (np.ravel(weight),)
         return FastPath("squared_error", columns, data, float(data.target.mean()))
     return None
+
+
+def _summed(node: NDArray[np.int64], values: NDArray, K: int) -> NDArray:
+    """``np.bincount(node, weights=values, minlength=K)`` by ``np.add.at``: the same additions in the same
+    order (each node's values in item order, from 0), so the same sums bit for bit; complex ``values`` give
+    the sums of both parts at once (a complex addition adds the parts apart). Target and square together:
+    1.8-1.9 ns an item against 3.7-3.8 for two ``bincount`` (AMD EPYC family 26, 63 000 items, 64-8 192
+    nodes; 2.8 for two float ``np.add.at``)."""
+    out = np.zeros(K, dtype=values.dtype)
+    np.add.at(out, node, values)
+    return out
 
 
 def _weighted_entropy(W, c1, out, tmp):

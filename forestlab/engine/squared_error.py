@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .cuts import light_reach, per_node, pick_cuts, record_cuts, record_sides, segment_ends
+from .cuts import light_reach, per_node, pick_cuts, record_cuts, record_sides
 from .running import running_sums
 from .workspace import Workspace, scratch
 
@@ -19,7 +19,7 @@ __all__ = ["squared_error_best_splits"]
 
 
 def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, parent, out, tie: float,
-                              work: Workspace | None):
+                              work: Workspace | None, whole_weights: bool = False):
     """As :func:`.fast_search.binary_best_splits` for the squared-error splitter, from the case weight ``W``
     and the weighted target ``S``, centred on the mean of the element's node, of the elements, packed as
     ``W + 1j * S`` (``elem``, overwritten).
@@ -31,10 +31,13 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, paren
     values of a node sum to their rounding residue rather than to 0 exactly (about ``1e-16`` of the summed
     ``|S|``), which enters the score at that size. Equal to the squared-error splitter's score up to
     rounding. Only the running sums of ``W`` (integers without case weights: exact) and ``S`` are needed.
+    ``whole_weights``: every weight is a whole number (bootstrap counts, no case weights), which lets
+    :func:`_squared_error_scores` find the light cuts from the product ``W_l * W_r`` it forms anyway.
     """
     left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
     left_w = left.real
-    score, light = _squared_error_scores(seg, left, total.real, min_leaf, lightest, work)
+    score, light = _squared_error_scores(seg, left, np.ascontiguousarray(total.real), min_leaf, lightest, work,
+                                         whole_weights)
     weight = total.real[seg.node_first]  # the decrease is W * score: picked on score, at the node's scale
     scale = per_node(seg, parent, 1.0 / weight)
     nodes, pick, decrease = pick_cuts(seg, parent * scale, np.zeros_like(parent), tie, score, light, work)
@@ -47,23 +50,28 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, paren
     return record_cuts(seg, out, nodes, pick, decrease, lw >= rw, cand)
 
 
-def _squared_error_scores(seg, left, weight, min_leaf: float, lightest: float, work: Workspace | None):
+def _squared_error_scores(seg, left, weight, min_leaf: float, lightest: float, work: Workspace | None,
+                          whole_weights: bool = False):
     """Every element's ``S_l**2 / (W_l * W_r)`` (a scratch array) and the cuts that leave a side lighter
-    than ``min_leaf`` (as :func:`.light_cuts`), from the running sums ``left`` (``W_l + 1j * S_l``) and the
-    segments' weights ``weight``.
+    than ``min_leaf`` (as :func:`.light_cuts`; None when they are already ``-inf`` in the scores), from the
+    running sums ``left`` (``W_l + 1j * S_l``) and the segments' weights ``weight`` (contiguous).
 
     Formed a few ten thousand elements (whole segments) at a time: each piece's segment weights, then ``W_r``
     and ``W_l * W_r`` in place, stay in the core's cache, so of the level-sized arrays only the scores are
-    written (not the weights spread over the level, nor ``W_r``, nor the product).
+    written (not the weights spread over the level, nor ``W_r``, nor the product). With whole weights and
+    short segments the light cuts are written as ``-inf`` in the same pieces (:func:`_light_bars`).
     """
     L, C = left.size, seg.start.size
     left_w, left_s = left.real, left.imag
     score = scratch(work, "score", L, np.float64)
     reach = None if min_leaf <= lightest else light_reach(seg, L, min_leaf, lightest)
+    bars = None
+    if whole_weights and reach is not None and _GATE_LEVEL <= L < C * _ENDS_RUN:  # light cuts from the products
+        bars, reach = _light_bars(weight, min_leaf), None
     light = scratch(work, "light", L, np.bool_) if reach == 0 else None
-    by_gather = C * 12 > L  # short segments: a gather by candidate, else each weight repeated over its segment
+    by_gather = C * _GATHER_RUN > L  # short segments: a gather by candidate, else each weight repeated
     ends = seg.start + seg.size
-    cuts = np.searchsorted(ends, np.arange(_SCORE_RUN, L, _SCORE_RUN), side="right").tolist()
+    cuts = [] if L <= _SCORE_RUN else np.searchsorted(ends, np.arange(_SCORE_RUN, L, _SCORE_RUN), side="right").tolist()
     with np.errstate(divide="ignore", invalid="ignore"):  # (segment ends: masked by the pick)
         for lo, hi in zip([0, *cuts], [*cuts, C]):
             if hi <= lo:
@@ -77,13 +85,55 @@ def _squared_error_scores(seg, left, weight, min_leaf: float, lightest: float, w
                 np.less(np.minimum(lw, spread), min_leaf, out=light[a:b])
             spread *= lw  # W_l * W_r
             np.divide(np.square(left_s[a:b], out=score[a:b]), spread, out=score[a:b])
+            if bars is not None:  # -inf where W_l * W_r falls below the segment's bar (a light cut)
+                bar = np.take(bars, seg.cand_of[a:b], mode="clip") if by_gather else \
+                    np.repeat(bars[lo:hi], seg.size[lo:hi])
+                np.subtract(spread, bar, out=bar)
+                bar *= np.inf
+                np.minimum(score[a:b], bar, out=score[a:b])
     if reach:  # long segments: only the elements near their ends can leave a side too light
-        near = segment_ends(seg, reach)
-        lw = left_w[near]
-        light = near[np.minimum(lw, np.take(weight, seg.candidate(near), mode="clip") - lw) < min_leaf]
+        light = _light_near_ends(seg, left_w, weight, min_leaf, reach)
     return score, light
+
+
+def _light_near_ends(seg, left_w, weight, min_leaf: float, reach: int):
+    """The elements among the first ``reach`` and the last ``reach + 1`` of every segment (those of
+    :func:`.segment_ends`) whose cut leaves a side lighter than ``min_leaf`` (possibly repeated where a
+    segment is short), from the running weights ``left_w`` and the segments' weights ``weight``.
+
+    Every item weighs at least ``min_leaf / reach``, so the ``j``-th element of a segment has ``W_l >= (j + 1)
+    min_leaf / reach`` and the ``j``-th from its end ``W_r >= j min_leaf / reach``: no other element is light.
+    Formed as (segments, ``2 reach + 1``) arrays, each element's segment known from its row (no search for
+    it, no compaction of the overlaps).
+    """
+    first, last = seg.start[:, None], (seg.start + seg.size - 1)[:, None]
+    steps = np.arange(reach + 1)
+    near = np.concatenate([np.minimum(first + steps[:-1], last), np.maximum(last - steps, first)], axis=1)
+    lw = left_w[near]
+    return near[np.minimum(lw, weight[:, None] - lw) < min_leaf]
+
+
+def _light_bars(weight, min_leaf: float):
+    """Per segment of weight ``W`` (whole numbers), the bar below which ``W_l * W_r`` marks a light cut.
+
+    With whole weights, ``W_l < min_leaf`` is ``W_l < m``, ``m = ceil(min_leaf)``, and ``W_l * W_r - m (W -
+    m) = (W_l - m) (W_r - m)`` (as ``W_r = W - W_l``), which is negative exactly when one side is lighter than
+    ``m`` (both cannot be, where ``W >= 2 m``; below that every cut is light: bar ``inf``). The products and
+    ``m (W - m)`` are whole numbers, exact as floats below ``2**53``, so the bar ``m (W - m) - 1/2`` is never
+    met: ``(W_l W_r - bar) * inf`` is ``+inf`` or ``-inf``, and its minimum with the score keeps valid scores
+    and writes ``-inf`` at light cuts (the segment ends included).
+    """
+    m = float(np.ceil(min_leaf))
+    return np.where(weight >= 2.0 * m, m * (weight - m) - 0.5, np.inf)
 
 
 #: Elements (whole segments) scored at a time by :func:`_squared_error_scores` (a few hundred KiB a piece)
 _SCORE_RUN = 1 << 15
+#: With whole weights, levels whose segments average fewer elements than this find their light cuts from
+#: the products in every piece (a few operations an element); longer ones at the segment ends only
+_ENDS_RUN = 128
+#: ... on levels of at least this many elements (on smaller ones the few more calls cost more than they save)
+_GATE_LEVEL = 4096
+#: Segments averaging fewer elements than this get their weights by a gather by candidate, not a repeat
+_GATHER_RUN = 12
 
