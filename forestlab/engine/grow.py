@@ -16,9 +16,10 @@ from numpy.typing import NDArray
 
 from .bootstrap import draw_counts
 from .fast_search import FastPath, fast_path
+from .level_blocks import level_best_splits
 from .presort import TrainingData
 from .sampler import CandidateSampler, draw_masks
-from .search import Items, Splits, best_splits, checked_impurity
+from .search import Items, Splits, checked_impurity
 from .splitter import CartSplitter
 from .tree import NODE_STORAGE, Tree, goes_right
 from .workspace import Workspace
@@ -162,14 +163,14 @@ def _search_open(data, rules, gens, subspace, batch, sub_items, node_tree, total
     search = (data, rules.splitter, rules.min_leaf, batch)
     centred = batch.fast is not None and batch.fast.kind == "squared_error"
     means = totals[open_nodes, 1] / weight[open_nodes] if centred else None
-    splits = best_splits(*search, sub_items, sub_tree, mask, parent, means)
+    splits = level_best_splits(*search, sub_items, sub_tree, mask, parent, means)
     if rules.sampler.per_tree or splits.found.all():
         return splits
     # the nodes without a split, numbered among themselves (every one then has the same number of
     # candidates under RandomSubset, which keeps the search on its fast whole-array path)
     todo = np.flatnonzero(~splits.found)
-    again = best_splits(*search, _items_of(sub_items, ~splits.found), sub_tree[todo], ~mask[todo], parent[todo],
-                        None if means is None else means[todo])
+    again = level_best_splits(*search, _items_of(sub_items, ~splits.found), sub_tree[todo], ~mask[todo],
+                              parent[todo], None if means is None else means[todo])
     splits.update(todo[again.found], again, again.found)
     return splits
 

@@ -19,7 +19,7 @@ __all__ = ["squared_error_best_splits"]
 
 
 def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, parent, out, tie: float,
-                              work: Workspace | None):
+                              work: Workspace | None, carry=None):
     """As :func:`.fast_search.binary_best_splits` for the squared-error splitter, from the case weight ``W``
     and the weighted target ``S``, centred on the mean of the element's node, of the elements, packed as
     ``W + 1j * S`` (``elem``, overwritten).
@@ -31,8 +31,9 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, paren
     values of a node sum to their rounding residue rather than to 0 exactly (about ``1e-16`` of the summed
     ``|S|``), which enters the score at that size. Equal to the squared-error splitter's score up to
     rounding. Only the running sums of ``W`` (integers without case weights: exact) and ``S`` are needed.
+    ``carry``: see :func:`.running_sums` (a level searched in blocks of candidates).
     """
-    left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
+    left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem, carry=carry)
     left_w = left.real
     score, light = _squared_error_scores(seg, left, total.real, min_leaf, lightest, work)
     weight = total.real[seg.node_first]  # the decrease is W * score: picked on score, at the node's scale

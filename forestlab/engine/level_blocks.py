@@ -1,0 +1,128 @@
+"""A level searched in blocks of candidates, so that its sorted elements stay within a budget (issue 17).
+
+A level of ``L`` sorted elements holds its keys, gathered statistics, running sums and scores, a few tens of
+bytes an element: at a million rows the root level (``L = m N``, ``N`` about 632 000 in-bag rows) was most
+of a fit's working memory, and every level above a few hundred thousand rows holds about as much. Levels of
+more than :data:`BLOCK_ELEMENTS` elements are therefore searched in blocks of consecutive candidates (in the
+level's (node, feature) order), each block sorted and scored on its own by :func:`.search.best_splits`:
+whole nodes together where they fit, else the candidates of one node a few at a time (at least one
+whole candidate a block).
+
+The splits are those of the search of the whole level, bit for bit:
+
+* every element of a block scores as in the whole level. Integer sums are exact in any order; the
+  floating-point running sums (squared error) continue from the blocks before (:class:`.running.Carry`),
+  so every segment sees the same operands in the same order as in one search of the level;
+* a node searched in one block is searched as in the whole level (its candidates in order, the same tie
+  bar);
+* a node whose candidates span blocks takes the block with the largest decrease where every other block's
+  falls short of it by far more than the tie tolerance (:data:`_CLEAR_GAP`): then the node's best score
+  lies in that block alone, its tie bar is the whole level's, no cut of another block reaches it, and the
+  first cut reaching it is that block's pick. Where two blocks come closer (an exact or near tie between
+  features, as with duplicated columns), the node is searched again over all its candidates at once,
+  its running sums continued from where they stood before its first block.
+
+Only the two-class and squared-error fast paths are searched in blocks (the generic and many-class
+searches keep their floating-point running sums to themselves); smaller levels, and every level of a fit
+of up to about a hundred thousand rows, take one search as before.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .fast_search import FastPath
+from .running import Carry
+from .search import Splits, best_splits
+from .segments import Items
+
+__all__ = ["BLOCK_ELEMENTS", "level_best_splits"]
+
+#: Sorted elements (node, candidate feature, item) a level's search holds at a time, where it can: larger
+#: levels are searched in blocks of candidates (a block holds at least one whole candidate)
+BLOCK_ELEMENTS = 1 << 20
+
+#: Relative gap (to the larger of the best decrease and the node's ``W i(t)``) between the best decreases
+#: of two blocks of one node beyond which the lower one cannot hold the node's pick: 1000 times the tie
+#: tolerance, far beyond any rounding of the decreases
+_CLEAR_GAP = 1e-9
+
+
+def level_best_splits(data, splitter, min_leaf: float, batch, items: Items, node_tree, mask, parent,
+                      means=None) -> Splits:
+    """:func:`.search.best_splits` of a level, in blocks of candidates where its sorted elements would
+    exceed :data:`BLOCK_ELEMENTS`; the same splits bit for bit."""
+    search = (data, splitter, min_leaf, batch)
+    budget = BLOCK_ELEMENTS
+    N, K = items.row.size, mask.shape[0]
+    if not isinstance(batch.fast, FastPath) or N * mask.shape[1] <= budget:
+        return best_splits(*search, items, node_tree, mask, parent, means)
+    ncand = np.count_nonzero(mask, axis=1)
+    if N * int(ncand.max(initial=0)) <= budget:
+        return best_splits(*search, items, node_tree, mask, parent, means)
+    size = np.bincount(items.node, minlength=K)
+    elements = size * ncand
+    if int(elements.sum()) <= budget:
+        return best_splits(*search, items, node_tree, mask, parent, means)
+    first, last, big = _node_groups(elements, budget)
+    out = Splits.none(K, data.category_words)
+    carry = Carry()
+    of_group = None if first.size == 1 else np.repeat(np.arange(first.size, dtype=np.int32), last - first)
+    group_of_item = None if of_group is None else np.take(of_group, items.node, mode="clip")
+    for g, (lo, hi) in enumerate(zip(first.tolist(), last.tolist())):
+        sub = items if group_of_item is None else _group_items(items, group_of_item, g, lo)
+        part = slice(lo, hi)
+        args = (node_tree[part], parent[part], None if means is None else means[part])
+        if not big[g]:  # whole nodes
+            out.update(part, _search(search, sub, mask[part], args, carry))
+            continue
+        before = carry.copy()  # (where the node's running sums start, should it be searched again)
+        features = np.flatnonzero(mask[lo])
+        step = max(1, budget // int(size[lo]))
+        results = []
+        for at in range(0, features.size, step):
+            one = np.zeros((1, mask.shape[1]), dtype=bool)
+            one[0, features[at:at + step]] = True
+            results.append(_search(search, sub, one, args, carry))
+        chosen = _clear_pick(results, float(parent[lo]))
+        if chosen is None:  # blocks too close to tell: the node's candidates searched together
+            chosen = _search(search, sub, mask[part], args, before.copy())
+        out.update(part, chosen)
+    return out
+
+
+def _search(search, items: Items, mask, args, carry: Carry) -> Splits:
+    node_tree, parent, means = args
+    return best_splits(*search, items, node_tree, mask, parent, means, carry)
+
+
+def _node_groups(elements, budget: int):
+    """Consecutive node ranges ``[first, last)`` of about ``budget`` elements each (at most twice), and
+    whether each is one node of more than ``budget`` elements (searched a few candidates at a time)."""
+    K = elements.size
+    heavy = elements > budget
+    label = (np.cumsum(elements) - 1) // budget
+    new = np.ones(K, dtype=bool)
+    new[1:] = (label[1:] != label[:-1]) | heavy[1:] | heavy[:-1]
+    first = np.flatnonzero(new)
+    last = np.append(first[1:], K)
+    return first, last, heavy[first] & (last - first == 1)
+
+
+def _group_items(items: Items, group_of_item, g: int, lo: int) -> Items:
+    """The items of the nodes of group ``g`` (whose first node is ``lo``), in order, numbered among them."""
+    sub = items.take(np.flatnonzero(group_of_item == g))
+    sub.node -= lo
+    return sub
+
+
+def _clear_pick(results: list[Splits], parent: float) -> Splits | None:
+    """The block holding one node's pick: the one with the largest decrease, if every other block that found
+    a cut falls short of it by more than :data:`_CLEAR_GAP`; None where two come closer."""
+    found = [r for r in results if r.found[0]]
+    if not found:
+        return results[0]
+    decrease = np.array([r.decrease[0] for r in found])
+    best = int(np.argmax(decrease))
+    bar = decrease[best] - _CLEAR_GAP * max(abs(float(decrease[best])), abs(parent))
+    return found[best] if np.count_nonzero(decrease >= bar) == 1 else None
