@@ -219,11 +219,16 @@ def _partition(data: TrainingData, items: Items, splits: Splits, left_child: NDA
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:
     """Reassemble the per-level records into one breadth-first node table per tree: every column ordered by
-    tree and converted to its stored type once, each tree's arrays slices of it."""
-    allrec = {k: np.concatenate([r[k] for r in records]) for k in records[0]}
-    order = np.argsort(allrec["tree"], kind="stable")
-    bounds = np.append(0, np.cumsum(np.bincount(allrec["tree"], minlength=trees)))
+    tree and converted to its stored type once, each tree's arrays slices of it. One column at a time, each
+    level's part released once gathered (a fit's largest trees are tens of megabytes of records)."""
+    tree = np.concatenate([r.pop("tree") for r in records])
+    order = None if trees == 1 else np.argsort(tree, kind="stable")  # (one tree: already in order)
+    bounds = np.append(0, np.cumsum(np.bincount(tree, minlength=trees)))
+    del tree
     column = {"impurity_decrease": "decrease"}
-    stored = {name: allrec[column.get(name, name)][order].astype(dtype, copy=False)
-              for name, dtype in NODE_STORAGE.items()}
+    stored = {}
+    for name, dtype in NODE_STORAGE.items():
+        values = np.concatenate([r.pop(column.get(name, name)) for r in records])
+        stored[name] = (values if order is None else values[order]).astype(dtype, copy=False)
+        del values
     return [Tree(**{name: values[lo:hi] for name, values in stored.items()}) for lo, hi in zip(bounds[:-1], bounds[1:])]

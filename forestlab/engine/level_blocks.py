@@ -14,7 +14,9 @@ The splits are those of the search of the whole level, bit for bit:
   floating-point running sums (squared error) continue from the blocks before (:class:`.running.Carry`),
   so every segment sees the same operands in the same order as in one search of the level;
 * a node searched in one block is searched as in the whole level (its candidates in order, the same tie
-  bar);
+  bar). A node's candidates are spread over blocks only where its weight, which the search reads from its
+  first candidate's segment, is an integer sum, the same in any block (not for squared error with case
+  weights);
 * a node whose candidates span blocks takes the block with the largest decrease where every other block's
   falls short of it by far more than the tie tolerance (:data:`_CLEAR_GAP`): then the node's best score
   lies in that block alone, its tie bar is the whole level's, no cut of another block reaches it, and the
@@ -65,6 +67,9 @@ def level_best_splits(data, splitter, min_leaf: float, batch, items: Items, node
     if int(elements.sum()) <= budget:
         return best_splits(*search, items, node_tree, mask, parent, means)
     first, last, big = _node_groups(elements, budget)
+    # a node's weight is read from its first candidate's segment: exact in any block where it is an integer
+    # sum (no case weights, or two classes, whose weights are counts), else the node is not split into blocks
+    big &= batch.fast.kind == "binary" or data.weights is None
     out = Splits.none(K, data.category_words)
     carry = Carry()
     of_group = None if first.size == 1 else np.repeat(np.arange(first.size, dtype=np.int32), last - first)
