@@ -66,13 +66,14 @@ def level_best_splits(data, splitter, min_leaf: float, batch, items: Items, node
     elements = size * ncand
     if int(elements.sum()) <= budget:
         return best_splits(*search, items, node_tree, mask, parent, means)
-    first, last, big = _node_groups(elements, budget)
+    first, last = _node_groups(elements, budget)
     # a node's weight is read from its first candidate's segment: exact in any block where it is an integer
     # sum (no case weights, or two classes, whose weights are counts), else the node is not split into blocks
-    big &= batch.fast.kind == "binary" or data.weights is None
+    big = (elements[first] > budget) & (batch.fast.kind == "binary" or data.weights is None)
     out = Splits.none(K, data.category_words)
     carry = Carry()
-    of_group = None if first.size == 1 else np.repeat(np.arange(first.size, dtype=np.int32), last - first)
+    of_group = None if first.size == 1 else np.repeat(np.arange(first.size, dtype=_group_type(first.size)),
+                                                       last - first)
     group_of_item = None if of_group is None else np.take(of_group, items.node, mode="clip")
     for g, (lo, hi) in enumerate(zip(first.tolist(), last.tolist())):
         sub = items if group_of_item is None else _group_items(items, group_of_item, g, lo)
@@ -102,16 +103,22 @@ def _search(search, items: Items, mask, args, carry: Carry) -> Splits:
 
 
 def _node_groups(elements, budget: int):
-    """Consecutive node ranges ``[first, last)`` of about ``budget`` elements each (at most twice), and
-    whether each is one node of more than ``budget`` elements (searched a few candidates at a time)."""
+    """Consecutive node ranges ``[first, last)`` of at most ``budget`` elements each, or of one node: a node
+    of more than half the budget is a range of its own, the others are grouped by the half budget their
+    first element falls in."""
     K = elements.size
-    heavy = elements > budget
-    label = (np.cumsum(elements) - 1) // budget
+    half = max(1, budget // 2)
+    alone = elements > half
+    label = (np.cumsum(elements) - elements) // half
     new = np.ones(K, dtype=bool)
-    new[1:] = (label[1:] != label[:-1]) | heavy[1:] | heavy[:-1]
+    new[1:] = (label[1:] != label[:-1]) | alone[1:] | alone[:-1]
     first = np.flatnonzero(new)
-    last = np.append(first[1:], K)
-    return first, last, heavy[first] & (last - first == 1)
+    return first, np.append(first[1:], K)
+
+
+def _group_type(groups: int) -> type:
+    """The narrowest integer type numbering ``groups`` groups (one byte or two an item, compared faster)."""
+    return np.uint8 if groups <= 1 << 8 else np.uint16 if groups <= 1 << 16 else np.int64
 
 
 def _group_items(items: Items, group_of_item, g: int, lo: int) -> Items:
