@@ -42,7 +42,7 @@ __all__ = ["BLOCK_ELEMENTS", "level_best_splits"]
 
 #: Sorted elements (node, candidate feature, item) a level's search holds at a time, where it can: larger
 #: levels are searched in blocks of candidates (a block holds at least one whole candidate)
-BLOCK_ELEMENTS = 1 << 20
+BLOCK_ELEMENTS = 1 << 19
 
 #: Relative gap (to the larger of the best decrease and the node's ``W i(t)``) between the best decreases
 #: of two blocks of one node beyond which the lower one cannot hold the node's pick: 1000 times the tie
@@ -103,16 +103,15 @@ def _search(search, items: Items, mask, args, carry: Carry) -> Splits:
 
 
 def _node_groups(elements, budget: int):
-    """Consecutive node ranges ``[first, last)`` of at most ``budget`` elements each, or of one node: a node
-    of more than half the budget is a range of its own, the others are grouped by the half budget their
-    first element falls in."""
+    """Consecutive node ranges ``[first, last)`` of at most ``budget`` elements each, or of one larger node,
+    each range as long as the budget allows (a loop over the ranges, each found by one ``searchsorted``)."""
     K = elements.size
-    half = max(1, budget // 2)
-    alone = elements > half
-    label = (np.cumsum(elements) - elements) // half
-    new = np.ones(K, dtype=bool)
-    new[1:] = (label[1:] != label[:-1]) | alone[1:] | alone[:-1]
-    first = np.flatnonzero(new)
+    end = np.cumsum(elements)
+    first, k = [], 0
+    while k < K:
+        first.append(k)
+        k = max(k + 1, int(np.searchsorted(end, end[k] - elements[k] + budget, side="right")))
+    first = np.array(first, dtype=np.int64)
     return first, np.append(first[1:], K)
 
 
