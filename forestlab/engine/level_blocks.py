@@ -60,8 +60,11 @@ def level_best_splits(data, splitter, min_leaf: float, batch, items: Items, node
     if not isinstance(batch.fast, FastPath) or N * mask.shape[1] <= budget:
         return best_splits(*search, items, node_tree, mask, parent, means)
     ncand = np.count_nonzero(mask, axis=1)
-    if N * int(ncand.max(initial=0)) <= budget:
+    m = int(ncand.max(initial=0))
+    if N * m <= budget:
         return best_splits(*search, items, node_tree, mask, parent, means)
+    if batch.fast.kind == "binary" and K > 1 and bool(np.all(ncand == m)):  # (integer sums: in any order)
+        return _slot_blocks(search, items, node_tree, mask, parent, m, max(1, budget // N))
     size = np.bincount(items.node, minlength=K)
     elements = size * ncand
     if int(elements.sum()) <= budget:
@@ -95,6 +98,44 @@ def level_best_splits(data, splitter, min_leaf: float, batch, items: Items, node
             chosen = _search(search, sub, mask[part], args, before.copy())
         out.update(part, chosen)
     return out
+
+
+def _slot_blocks(search, items: Items, node_tree, mask, parent, m: int, step: int) -> Splits:
+    """The two-class search of a level whose nodes have ``m`` candidates each, in blocks of ``step``
+    candidates of every node (the first ``step`` of each node, then the next ...): every block holds all the
+    level's items, so none are taken out, and its integer sums are exact in any order."""
+    K, p = mask.shape
+    feature = (np.flatnonzero(mask) % p).reshape(K, m)  # each node's candidates, in order
+    rows = np.arange(K)[:, None]
+    results = []
+    for at in range(0, m, step):
+        part = np.zeros_like(mask)
+        part[rows, feature[:, at:at + step]] = True
+        results.append(best_splits(*search, items, node_tree, part, parent))
+    close, chosen = _close_blocks(results, parent)
+    out = Splits.none(K, search[0].category_words)
+    for b, result in enumerate(results):
+        mine = np.flatnonzero((close == 1) & (chosen == b))
+        out.update(mine, result, mine)
+    again = np.flatnonzero(close > 1)  # blocks too close to tell: those nodes searched whole
+    if again.size:
+        keep = np.zeros(K, dtype=bool)
+        keep[again] = True
+        sub = items.take(np.flatnonzero(np.take(keep, items.node, mode="clip")))
+        sub.node = np.take(np.cumsum(keep) - 1, sub.node, mode="clip")
+        out.update(again, best_splits(*search, sub, node_tree[again], mask[again], parent[again]))
+    return out
+
+
+def _close_blocks(results: list[Splits], parent):
+    """:func:`_clear_pick` for every node of a level at once: per node, how many blocks found a cut within
+    :data:`_CLEAR_GAP` of its largest decrease (1: that block holds the pick; 0: none found a cut), and the
+    first block holding the largest."""
+    found = np.stack([r.found for r in results])
+    decrease = np.where(found, np.stack([r.decrease for r in results]), -np.inf)
+    best = decrease.max(axis=0)
+    bar = best - _CLEAR_GAP * np.maximum(np.abs(best), np.abs(parent))
+    return np.count_nonzero(found & (decrease >= bar), axis=0), np.argmax(decrease, axis=0)
 
 
 def _search(search, items: Items, mask, args, carry: Carry) -> Splits:

@@ -7,7 +7,9 @@ large nodes one or two candidates at a time; every node array of every tree, and
 every node before it is stored as float32, must be equal. The two fast paths (two classes, Gini and entropy;
 squared error, with and without case weights), with and without ties and a binding ``min_leaf``, batches of
 one and of several trees, the per-tree sampler and a sampler giving nodes different numbers of candidates
-are covered, and duplicated columns force exact ties between blocks (the node is then searched again whole).
+are covered, and duplicated columns force exact ties between blocks (the node is then searched again whole),
+for both ways of cutting a level: ranges of nodes, and (two classes, as many candidates at every node) the
+same candidates of every node.
 """
 
 from __future__ import annotations
@@ -46,7 +48,7 @@ def _grown(monkeypatch, budget: int, X, y, weights=None, **settings):
     """The forest and the float64 decreases of every level, with ``budget`` elements a block, and how many
     levels were searched in blocks."""
     decreases, blocked = [], []
-    level, groups = grow._grow_level, level_blocks._node_groups
+    level, groups, slots = grow._grow_level, level_blocks._node_groups, level_blocks._slot_blocks
 
     def spy_level(*args, **kwargs):
         out = level(*args, **kwargs)
@@ -57,10 +59,15 @@ def _grown(monkeypatch, budget: int, X, y, weights=None, **settings):
         blocked.append(1)
         return groups(*args)
 
+    def spy_slots(*args):
+        blocked.append(1)
+        return slots(*args)
+
     with monkeypatch.context() as m:
         m.setattr(level_blocks, "BLOCK_ELEMENTS", budget)
         m.setattr(grow, "_grow_level", spy_level)
         m.setattr(level_blocks, "_node_groups", spy_groups)
+        m.setattr(level_blocks, "_slot_blocks", spy_slots)
         forest = fl.Forest(**settings).fit(X, y, weights)
     return forest, np.concatenate(decreases), len(blocked)
 
@@ -112,14 +119,20 @@ def test_exact_ties_between_blocks_search_the_node_again(monkeypatch, task):
     X, y = _problem(task, ties=False, p=3)
     X = np.column_stack([X[:, :1], X[:, :1], X[:, 1:], X[:, :1]])  # feature 0 three times: exact ties
     again = []
-    pick = level_blocks._clear_pick
+    pick, close = level_blocks._clear_pick, level_blocks._close_blocks
 
-    def spy(results, parent):
+    def spy_pick(results, parent):  # (ranges of nodes: squared error)
         chosen = pick(results, parent)
         again.append(chosen is None)
         return chosen
 
-    monkeypatch.setattr(level_blocks, "_clear_pick", spy)
+    def spy_close(results, parent):  # (the same candidates of every node: two classes)
+        counts, chosen = close(results, parent)
+        again.extend((counts[counts > 0] > 1).tolist())
+        return counts, chosen
+
+    monkeypatch.setattr(level_blocks, "_clear_pick", spy_pick)
+    monkeypatch.setattr(level_blocks, "_close_blocks", spy_close)
     settings = dict(trees=3, sampler=fl.AllFeatures(), task=task, rng=4)
     one, blocks = _grown(monkeypatch, 1 << 40, X, y, **settings), _grown(monkeypatch, 40, X, y, **settings)
     assert any(again) and not all(again)  # some nodes were tied across blocks, others were clear
