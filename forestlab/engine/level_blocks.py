@@ -6,7 +6,9 @@ of a fit's working memory, and every level above a few hundred thousand rows hol
 more than :data:`BLOCK_ELEMENTS` elements are therefore searched in blocks of consecutive candidates (in the
 level's (node, feature) order), each block sorted and scored on its own by :func:`.search.best_splits`:
 whole nodes together where they fit, else the candidates of one node a few at a time (at least one
-whole candidate a block).
+whole candidate a block). A two-class level whose nodes have the same number of candidates takes instead
+the same candidates of every node a block (the first of each node, then the second ...): every block then
+holds all the level's items, none are taken out, and integer sums are exact in any order.
 
 The splits are those of the search of the whole level, bit for bit:
 
