@@ -60,9 +60,10 @@ class FastPath:
     centre: float = 0.0  # squared error: the mean the statistics are centred on
 
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, means, out,
-                    tie: float, work: Workspace | None):
+                    tie: float, work: Workspace | None, carry=None):
         """Fill ``out`` with the best split of every node of the sorted segments ``seg`` (``means``: each
-        node's summed first statistic over its weight, which the squared-error search centres on)."""
+        node's summed first statistic over its weight, which the squared-error search centres on; ``carry``:
+        the floating-point running sums of the blocks of the level before this one, :func:`.running_sums`)."""
         column = self.columns[0]
         if seg.item is not None or self.kind == "squared_error":  # the level's items' values
             column = np.take(column, items.wi, mode="clip")
@@ -78,7 +79,7 @@ class FastPath:
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)
         return squared_error_best_splits(seg, min_leaf, lightest, elem, parent, out, tie, work,
-                                         whole_weights=self.data.weights is None)
+                                         whole_weights=self.data.weights is None, carry=carry)
 
     def sides(self, items, K: int) -> NDArray[np.float64]:
         """What :meth:`summaries` reads from the parents' cuts, summed over the items instead (K, 3): the

@@ -16,9 +16,10 @@ from numpy.typing import NDArray
 
 from .bootstrap import draw_counts
 from .fast_search import FastPath, fast_path
+from .level_blocks import level_best_splits
 from .presort import TrainingData
 from .sampler import CandidateSampler, TreeGenerators, draw_masks
-from .search import Items, Splits, best_splits, checked_impurity
+from .search import Items, Splits, checked_impurity
 from .splitter import CartSplitter
 from .tree import NODE_STORAGE, Tree, goes_right
 from .workspace import Workspace
@@ -168,14 +169,14 @@ def _search_open(data, rules, gens, subspace, batch, sub_items, node_tree, total
     search = (data, rules.splitter, rules.min_leaf, batch)
     centred = batch.fast is not None and batch.fast.kind == "squared_error"
     means = totals[open_nodes, 1] / weight[open_nodes] if centred else None
-    splits = best_splits(*search, sub_items, sub_tree, mask, parent, means)
+    splits = level_best_splits(*search, sub_items, sub_tree, mask, parent, means)
     if rules.sampler.per_tree or splits.found.all():
         return splits
     # the nodes without a split, numbered among themselves (every one then has the same number of
     # candidates under RandomSubset, which keeps the search on its fast whole-array path)
     todo = np.flatnonzero(~splits.found)
-    again = best_splits(*search, _items_of(sub_items, ~splits.found), sub_tree[todo], ~mask[todo], parent[todo],
-                        None if means is None else means[todo])
+    again = level_best_splits(*search, _items_of(sub_items, ~splits.found), sub_tree[todo], ~mask[todo],
+                              parent[todo], None if means is None else means[todo])
     splits.update(todo[again.found], again, again.found)
     return splits
 
@@ -225,11 +226,16 @@ def _partition(data: TrainingData, items: Items, splits: Splits, left_child: NDA
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:
     """Reassemble the per-level records into one breadth-first node table per tree: every column ordered by
-    tree and converted to its stored type once, each tree's arrays slices of it."""
-    allrec = {k: np.concatenate([r[k] for r in records]) for k in records[0]}
-    order = np.argsort(allrec["tree"], kind="stable")
-    bounds = np.append(0, np.cumsum(np.bincount(allrec["tree"], minlength=trees)))
+    tree and converted to its stored type once, each tree's arrays slices of it. One column at a time, each
+    level's part released once gathered (a fit's largest trees are tens of megabytes of records)."""
+    tree = np.concatenate([r.pop("tree") for r in records])
+    order = None if trees == 1 else np.argsort(tree, kind="stable")  # (one tree: already in order)
+    bounds = np.append(0, np.cumsum(np.bincount(tree, minlength=trees)))
+    del tree
     column = {"impurity_decrease": "decrease"}
-    stored = {name: allrec[column.get(name, name)][order].astype(dtype, copy=False)
-              for name, dtype in NODE_STORAGE.items()}
+    stored = {}
+    for name, dtype in NODE_STORAGE.items():
+        values = np.concatenate([r.pop(column.get(name, name)) for r in records])
+        stored[name] = (values if order is None else values[order]).astype(dtype, copy=False)
+        del values
     return [Tree(**{name: values[lo:hi] for name, values in stored.items()}) for lo, hi in zip(bounds[:-1], bounds[1:])]

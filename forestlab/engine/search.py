@@ -64,7 +64,7 @@ def checked_impurity(splitter: CartSplitter, S: NDArray[np.float64]) -> NDArray[
 
 
 def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, batch, items: Items, node_tree, mask,
-                parent, means=None) -> Splits:
+                parent, means=None, carry=None) -> Splits:
     """Exact best split of every node over its candidate features.
 
     Ties (scores within a relative 1e-12): lowest feature, then smallest threshold, then missing cases sent
@@ -72,7 +72,8 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, bat
     first read), ``lightest`` (smallest positive case weight), ``fast`` (the statistics packed for one of
     :mod:`._fast_search`'s searches, or None) and ``work`` (scratch buffers reused from level to level;
     results never live in them). ``parent`` holds the nodes' ``W * i(t)``; ``means`` (fast searches) the
-    nodes' first summed statistic over their weight.
+    nodes' first summed statistic over their weight; ``carry`` (the fast searches of a level searched in
+    blocks, :mod:`.level_blocks`) the floating-point running sums of the blocks before this one.
     """
     out = Splits.none(mask.shape[0], data.category_words)
     cand = np.flatnonzero(mask)
@@ -83,8 +84,9 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, bat
                                     parent, out, TIE_TOLERANCE, batch.work)
     seg = sorted_segments(data, items, node_tree, mask, cand, batch.work, by_position=batch.fast is not None)
     if batch.fast is not None:
+        more = {} if carry is None else {"carry": carry}  # (blocks: the two-class and squared-error paths)
         return batch.fast.best_splits(seg, splitter, min_leaf, batch.lightest, items, parent, means, out,
-                                      TIE_TOLERANCE, batch.work)
+                                      TIE_TOLERANCE, batch.work, **more)
     stats, lightest = batch.stats, batch.lightest
     seg.materialise()
     order = _order_categories(data, seg, stats[0]) if data.category_words else None

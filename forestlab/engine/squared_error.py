@@ -19,7 +19,7 @@ __all__ = ["squared_error_best_splits"]
 
 
 def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, parent, out, tie: float,
-                              work: Workspace | None, whole_weights: bool = False):
+                              work: Workspace | None, whole_weights: bool = False, carry=None):
     """As :func:`.fast_search.binary_best_splits` for the squared-error splitter, from the case weight ``W``
     and the weighted target ``S``, centred on the mean of the element's node, of the elements, packed as
     ``W + 1j * S`` (``elem``, overwritten).
@@ -33,8 +33,9 @@ def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, paren
     rounding. Only the running sums of ``W`` (integers without case weights: exact) and ``S`` are needed.
     ``whole_weights``: every weight is a whole number (bootstrap counts, no case weights), which lets
     :func:`_squared_error_scores` find the light cuts from the product ``W_l * W_r`` it forms anyway.
+    ``carry``: see :func:`.running_sums` (a level searched in blocks of candidates).
     """
-    left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
+    left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem, carry=carry)
     left_w = left.real
     score, light = _squared_error_scores(seg, left, np.ascontiguousarray(total.real), min_leaf, lightest, work,
                                          whole_weights)

@@ -2,7 +2,8 @@
 
 The references are written here: a Python loop of ``np.cumsum`` over each segment (the definition of a
 running sum), and, for the floating-point path, the same tree's sums computed with and without other
-trees in the batch (forestlab's rule: a tree's arithmetic never depends on its batch).
+trees in the batch (forestlab's rule: a tree's arithmetic never depends on its batch), and computed in one
+call or in blocks of consecutive segments continued by a ``Carry`` (a level searched in blocks).
 """
 
 from __future__ import annotations
@@ -11,7 +12,7 @@ import numpy as np
 from hypothesis import given
 from hypothesis import strategies as st
 
-from forestlab.engine.running import running_sums
+from forestlab.engine.running import Carry, running_sums
 
 
 @st.composite
@@ -72,3 +73,32 @@ def test_complex_running_sums_carry_two_channels(case, data):
     with np.errstate(under="ignore"):
         bound = 4 * sums.size * np.finfo(float).eps * np.abs(sums).sum()  # summation error, common practice
     np.testing.assert_allclose(left.imag, per_segment(sums, start), rtol=0, atol=bound + 1e-300)
+
+
+@given(segmented(integer=False), st.data())
+def test_sums_in_blocks_of_segments_continued_by_a_carry_equal_one_call(case, data):
+    values, start, trees = case
+    cuts = sorted(set(data.draw(st.lists(st.integers(1, max(1, start.size - 1)), max_size=4)))) \
+        if start.size > 1 else []
+    bounds = np.append(start, values.size)
+    for packed in (values, np.round(values) + 1j * values[::-1]):  # float, and complex as squared error packs
+        whole, totals = running_sums(packed.copy(), start, trees)
+        carry, left, total = Carry(), [], []
+        for a, b in zip([0, *cuts], [*cuts, start.size]):
+            lo, hi = bounds[a], bounds[b]
+            part, part_totals = running_sums(packed[lo:hi].copy(), start[a:b] - lo, trees[a:b], carry=carry)
+            left.append(part)
+            total.append(part_totals)
+        assert np.concatenate(left).tobytes() == whole.tobytes()
+        assert np.concatenate(total).tobytes() == totals.tobytes()
+
+
+def test_without_the_carry_blocks_round_differently():
+    # the carry is needed: the sums of a segment continue, rounded, from those of the segment before it
+    rng = np.random.default_rng(4)
+    values = rng.normal(size=400) * 10.0 ** rng.integers(-3, 4, size=400)
+    start, trees = np.arange(0, 400, 20), np.zeros(20, dtype=np.int64)
+    whole, _ = running_sums(values.copy(), start, trees)
+    apart = np.concatenate([running_sums(values[lo:lo + 100].copy(), start[:5], trees[:5])[0]
+                            for lo in range(0, 400, 100)])
+    assert apart.tobytes() != whole.tobytes()
