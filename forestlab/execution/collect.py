@@ -5,7 +5,6 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from concurrent.futures import FIRST_COMPLETED, BrokenExecutor, Future, wait
-from dataclasses import fields
 
 import numpy as np
 from numpy.typing import NDArray
@@ -125,12 +124,8 @@ def died_while(blocks: list[list[int]], lost: list[tuple[int, int]], waiting: in
 
 
 def assemble(results: list[Grown]) -> Grown:
-    """Trees in id order (made read-only again after unpickling) and the stacked in-bag counts."""
-    trees: list[Tree] = []
-    for grown, _ in results:
-        for tree in grown:
-            for f in fields(tree):
-                getattr(tree, f.name).flags.writeable = False
-        trees += grown
+    """Trees in id order and the stacked in-bag counts (trees are read-only as made, and again after
+    unpickling: ``Tree.__setstate__``)."""
+    trees: list[Tree] = [tree for grown, _ in results for tree in grown]
     inbag = np.concatenate([counts for _, counts in results])
     return trees, inbag
