@@ -223,7 +223,7 @@ def draw_masks(sampler: CandidateSampler, gens: list[np.random.Generator], nodes
         m = candidate_count(sampler.m, features, "classification")
         if m >= features:
             return np.ones((int(np.sum(nodes)), features), dtype=bool)
-        if isinstance(gens, TreeGenerators):
+        if isinstance(gens, TreeGenerators) and len(gens) > 1:  # (one tree: its own call per level, as below)
             keys = gens.uniform_rows(nodes, features)
         else:
             live = np.flatnonzero(nodes)
@@ -240,39 +240,45 @@ class TreeGenerators(list):
     uniform keys ahead of the levels that use them.
 
     A generator's doubles come one after another however many each call takes, so a tree's keys drawn a
-    chunk at a time (a few dozen nodes' rows, doubling) are the numbers one ``random`` call per level would
-    give; nothing else draws from a tree's generator once its levels begin (the bootstrap sample comes first),
-    and the keys drawn beyond the last level are never used. One call per tree every few levels instead of
-    one per tree and level (about 0.6 us each): at n = 1 000 a batch of 64 trees makes about 700 calls less.
+    chunk at a time are the numbers one ``random`` call per level would give; nothing else draws from a
+    tree's generator once its levels begin (the bootstrap sample comes first), and the keys drawn beyond the
+    last level are never used. One call per tree every few levels instead of one per tree and level (about
+    0.6 us each): at n = 1 000 a batch of 64 trees makes about 700 calls less. The keys held are those of
+    the current level and the ones drawn ahead of it, at most twice the largest level's (spent rows are
+    dropped whenever the array grows), so a batch holds about what one level's keys take.
     """
 
-    #: Rows (nodes) of keys a tree draws first; each further draw doubles the rows held
+    #: Rows (nodes) of keys a tree draws first; the array grows to twice the largest level's rows
     FIRST_ROWS = 32
 
     def __init__(self, gens) -> None:
         super().__init__(gens)
-        self._keys: NDArray[np.float64] | None = None  # (trees, rows, features), rows drawn[t] onwards unset
+        self._keys: NDArray[np.float64] | None = None  # (trees, rows, features): rows drawn[t] onwards unset
         self._drawn = np.zeros(len(self), dtype=np.int64)
         self._used = np.zeros(len(self), dtype=np.int64)
 
     def uniform_rows(self, nodes: NDArray[np.int64], features: int) -> NDArray[np.float64]:
         """The next ``nodes[t]`` rows of ``features`` uniform keys of every tree ``t``, stacked in tree order:
         what ``self[t].random((nodes[t], features))`` would give, tree after tree."""
+        if self._keys is None or int((self._used + nodes).max()) > self._keys.shape[1]:
+            self._regrow(nodes, features)
         used, need = self._used, self._used + nodes
-        top = int(need.max())
-        if self._keys is None:
-            self._keys = np.empty((len(self), max(self.FIRST_ROWS, top), features))
         held = self._keys.shape[1]
-        if top > held:  # room for the longest tree: the rows held doubled (or as many as it needs)
-            grown = np.empty((len(self), max(2 * held, top), features))
-            grown[:, :held] = self._keys
-            self._keys, held = grown, grown.shape[1]
         for t in (need > self._drawn).nonzero()[0].tolist():
             self[t].random(out=self._keys[t, self._drawn[t]:])
             self._drawn[t] = held
         self._used = need
-        if len(self) == 1:
-            return self._keys[0, int(used[0]):top]
         first = nodes.cumsum() - nodes
         rows = np.arange(int(first[-1] + nodes[-1])) + np.repeat(np.arange(len(self)) * held + used - first, nodes)
         return self._keys.reshape(-1, features).take(rows, axis=0, mode="clip")
+
+    def _regrow(self, nodes: NDArray[np.int64], features: int) -> None:
+        """A new key array of twice the largest level's rows, holding each tree's keys drawn and not yet
+        used at its start (the spent rows dropped)."""
+        ahead = self._drawn - self._used
+        rows = max(self.FIRST_ROWS, 2 * int(nodes.max()), int((ahead + nodes).max()))
+        keys = np.empty((len(self), rows, features))
+        if self._keys is not None:
+            for t in ahead.nonzero()[0].tolist():  # (a loop over trees, a few times a fit)
+                keys[t, :ahead[t]] = self._keys[t, self._used[t]:self._drawn[t]]
+        self._keys, self._drawn, self._used = keys, ahead, np.zeros_like(ahead)

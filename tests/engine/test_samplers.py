@@ -291,6 +291,15 @@ def test_keys_drawn_ahead_equal_one_draw_per_tree_and_level():
             got = draw_masks(sampler, ahead, nodes, 10)
             want = np.concatenate([sampler.draw(plain[t], int(k), 10) for t, k in enumerate(nodes)])
             np.testing.assert_array_equal(got, want)
+        # many levels: the same keys, and the array holds about twice a level's rows, not every level's
+        ahead = TreeGenerators(np.random.default_rng(s) for s in (7, 8))
+        plain = [np.random.default_rng(s) for s in (7, 8)]
+        for level in range(40):
+            nodes = np.array([20, 20 - level % 3])
+            got = draw_masks(sampler, ahead, nodes, 10)
+            want = np.concatenate([sampler.draw(plain[t], int(k), 10) for t, k in enumerate(nodes)])
+            np.testing.assert_array_equal(got, want)
+        assert ahead._keys.shape[1] <= 64
         one = TreeGenerators([np.random.default_rng(7)])
         alone = np.random.default_rng(7)
         for k in (1, 2, 40, 3, 100):
