@@ -305,7 +305,7 @@ class TestFailures:
                 print("done", done, flush=True)
             if __name__ == "__main__":
                 X, y = twonorm(3000, dims=10, rng=1)
-                fl.Forest(trees=400, rng=1, workers=2, progress=progress).fit(X, y)
+                fl.Forest(trees=8000, rng=1, workers=2, progress=progress).fit(X, y)  # (seconds: Ctrl-C lands mid-fit)
                 print("finished", flush=True)
         """)
         path = tmp_path / "fit.py"
