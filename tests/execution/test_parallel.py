@@ -305,14 +305,17 @@ class TestFailures:
                 print("done", done, flush=True)
             if __name__ == "__main__":
                 X, y = twonorm(3000, dims=10, rng=1)
-                fl.Forest(trees=8000, rng=1, workers=2, progress=progress).fit(X, y)  # (seconds: Ctrl-C lands mid-fit)
+                fl.Forest(trees=2000, rng=1, workers=2, progress=progress).fit(X, y)
                 print("finished", flush=True)
         """)
         path = tmp_path / "fit.py"
         path.write_text(script)
         env = dict(os.environ, PYTHONPATH=str(Path(fl.__file__).parents[1]))
+        # (Ctrl-C as in a terminal: a job started in the background of a non-interactive shell, as CI may run
+        # the suite, inherits SIGINT ignored, and Python then installs no KeyboardInterrupt handler)
         with subprocess.Popen([sys.executable, str(path)], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
-                              text=True, env=env, start_new_session=True) as proc:  # closes the pipes
+                              text=True, env=env, start_new_session=True,
+                              preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL)) as proc:
             try:
                 assert proc.stdout.readline().strip() == "done 0"
                 assert proc.stdout.readline().startswith("done ")  # workers are running
