@@ -15,7 +15,18 @@ from .cuts import light_reach, per_node, pick_cuts, record_cuts, record_sides
 from .running import running_sums
 from .workspace import Workspace, scratch
 
-__all__ = ["squared_error_best_splits"]
+__all__ = ["item_moments", "squared_error_best_splits"]
+
+
+def item_moments(column, counts, stats, items):
+    """Each item's weighted target and its square, ``S1 + 1j * S2``, as the batch's second column would
+    hold them: ``S1`` from the first column ``W + 1j * S1`` and ``S2 = count * stats[row, 2]``, the product
+    that column is made of (the same values bit for bit); ``stats`` C-contiguous."""
+    values = np.take(column, items.wi, mode="clip")
+    values.real = values.imag
+    count = np.take(counts.ravel(), items.wi, mode="clip")
+    values.imag = count * np.take(stats.ravel(), items.row * stats.shape[1] + 2, mode="clip")
+    return values
 
 
 def squared_error_best_splits(seg, min_leaf: float, lightest: float, elem, parent, out, tie: float,

@@ -90,3 +90,40 @@ def test_light_near_ends_finds_every_light_cut(whole):
         total = np.repeat(weight, size)
         expected = set(np.flatnonzero(np.minimum(left, total - left) < min_leaf).tolist())
         assert found == expected, min_leaf
+
+
+@pytest.mark.parametrize("weighted", [False, True])
+@pytest.mark.parametrize("trees", [1, 4])
+def test_node_sums_without_the_moments_column_grow_the_same_trees(monkeypatch, weighted, trees):
+    # a batch of more than MOMENTS_COLUMN_ENTRIES entries forms each item's target and square when its node
+    # sums need them, instead of holding them as a column: the same values, so the same trees bit for bit
+    from forestlab.engine import fast_search
+
+    rng = np.random.default_rng(12)
+    X = rng.normal(size=(500, 4))
+    y = np.sin(3 * X[:, 0]) + X[:, 1] * X[:, 2] + 0.3 * rng.normal(size=500) + 50.0
+    weights = rng.uniform(0.2, 3.0, size=500) if weighted else None
+
+    summaries = fast_search.FastPath.summaries
+
+    def fit():  # the forest, and every level's node totals (weight, target sum, sum of squares)
+        totals = []
+
+        def recorded(self, *args):
+            out = summaries(self, *args)
+            totals.append(out[1].copy())
+            return out
+
+        monkeypatch.setattr(fast_search.FastPath, "summaries", recorded)
+        return fl.Forest(trees=trees, sampler=2, task="regression", rng=6).fit(X, y, weights), totals
+
+    held, held_totals = fit()
+    monkeypatch.setattr(fast_search, "MOMENTS_COLUMN_ENTRIES", 0)
+    formed, formed_totals = fit()
+    assert len(held_totals) == len(formed_totals) > 5
+    for a, b in zip(held_totals, formed_totals):
+        assert a.tobytes() == b.tobytes()
+    for i in range(trees):
+        a, b = held.tree(i), formed.tree(i)
+        for name in ("feature", "threshold", "value", "cases", "impurity_decrease"):
+            np.testing.assert_array_equal(getattr(a, name), getattr(b, name), err_msg=name)
