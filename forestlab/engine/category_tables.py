@@ -17,7 +17,7 @@ import numpy as np
 
 from .category_runs import CategoryRunsPath, _ordered
 from .run_gini import run_gini_splits
-from .segments import Items, Segments
+from .segments import Items, Segments, pair_keys
 from .workspace import Workspace, scratch
 
 __all__ = ["unsorted_gini_splits"]
@@ -62,23 +62,11 @@ def unsorted_gini_splits(path: CategoryRunsPath, splitter, min_leaf: float, ligh
 
 
 def _pair_cells(data, items: Items, cand_feat, ncand, first, k: int, work: Workspace | None):
-    """``candidate * k + code`` of every (item, candidate of its node) pair, and the item of every pair: None
-    when they are slot-major (pair ``j * N + i`` is item ``i``'s ``j``-th candidate; every node has the same
-    number of candidates), else item by item."""
-    n = data.rows
-    dense = data.dense.ravel()
-    N = items.row.size
-    m = int(ncand[0])
-    if m and np.all(ncand == m):
-        cell = scratch(work, "key", m * N, np.int64).reshape(m, N)
-        feature_base = cand_feat.reshape(-1, m).T * n
-        for j in range(m):
-            np.take(feature_base[j], items.node, out=cell[j], mode="clip")
-            cell[j] += items.row
-            cell[j] = np.take(dense, cell[j], mode="clip")
-            cell[j] += np.take((first + j) * k, items.node, mode="clip")
-        return cell.ravel(), None
-    reps = ncand[items.node]
-    pair_item = np.repeat(np.arange(N), reps)
-    pair_cand = first[items.node][pair_item] + np.arange(pair_item.size) - np.repeat(np.cumsum(reps) - reps, reps)
-    return pair_cand * k + dense[cand_feat[pair_cand] * n + items.row[pair_item]], pair_item
+    """``candidate * k + code`` of every (item, candidate of its node) pair, and the item of every pair (None
+    when the pairs are slot-major): :func:`.segments.pair_keys`' codes ``candidate << dense_bits | code``
+    without an item, re-based to ``k`` cells a candidate."""
+    code, pair_item = pair_keys(data, items, cand_feat, ncand, first, 0, work)
+    spare = code >> data.dense_bits  # the candidate
+    spare *= (1 << data.dense_bits) - k
+    code -= spare
+    return code, pair_item

@@ -16,7 +16,7 @@ from numpy.typing import NDArray
 from .presort import TrainingData
 from .workspace import Workspace, scratch
 
-__all__ = ["Items", "Segments", "gather", "run_starts", "sorted_segments"]
+__all__ = ["Items", "Segments", "gather", "pair_keys", "run_starts", "sorted_segments"]
 
 
 @dataclass
@@ -120,7 +120,7 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
     item_bits = max(1, (N - 1).bit_length())
     shift = data.dense_bits
     if (cand.size - 1).bit_length() + data.dense_bits + item_bits <= 63:
-        key, _ = _pair_keys(data, items, cand_feat, ncand, first, item_bits, work)
+        key, _ = pair_keys(data, items, cand_feat, ncand, first, item_bits, work)
         key.sort()
         item = np.bitwise_and(key, (1 << item_bits) - 1, out=scratch(work, "item", key.size, _item_type(item_bits)),
                               casting="unsafe")
@@ -129,7 +129,7 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
         else:
             code = np.right_shift(key, item_bits, out=key)
     else:
-        code, pair_item = _pair_keys(data, items, cand_feat, ncand, first, 0, work)
+        code, pair_item = pair_keys(data, items, cand_feat, ncand, first, 0, work)
         perm = np.argsort(code, kind="stable")
         item = perm % N if pair_item is None else pair_item[perm]
         code = code[perm]
@@ -209,7 +209,7 @@ def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Wor
     return Segments(*parts, None, code, None, items, data, bits, wi=wi, row=row)
 
 
-def _pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_bits: int,
+def pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_bits: int,
                work: Workspace | None = None) -> tuple[NDArray[np.int64], NDArray[np.int64] | None]:
     """The key ``(candidate << dense_bits | dense[feature, row]) << item_bits | item`` of every (item,
     candidate of its node) pair (``item_bits = 0``: no item), and the item of every pair (None when the
