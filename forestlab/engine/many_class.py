@@ -18,7 +18,7 @@ f(a)`` with ``f(c) = c log c`` read from a table; these running sums are floatin
 tree, as every float sum of the engine), so scores equal the splitter's up to rounding.
 
 :func:`many_class_cut_scores` is shared by this fast path (numeric features, no missing values) and by the
-generic search for categorical candidates (:mod:`.search`).
+categorical runs put in order (:mod:`.category_runs`).
 """
 
 from __future__ import annotations
@@ -177,8 +177,8 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     ``elem`` holds every element's ``count | class << 8`` (int32, overwritten), ``node_class`` the weight of
     every (class, node), class-major. Along a run of one class the Gini score is a strictly convex function of
     the weight moved left (``u + 2 d + (A + d**2) / u`` on each side, ``u`` the side's weight), and the
-    decrease is 0 at a segment's ends, so no cut inside a run is best (Fayyad & Irani 1992, Theorem 1, for any number of
-    classes; as :func:`.fast_search._class_changes` for two). A run of class ``k`` and weight ``r`` preceded
+    decrease is 0 at a segment's ends, so no cut inside a run is best (Fayyad & Irani 1992, Theorem 1, for
+    any number of classes; as :func:`.fast_search._class_changes` for two). A run of class ``k`` and weight ``r`` preceded
     by ``b`` of its class in the segment adds ``r (2 b + r)`` to the left ``Q`` and takes ``r (2 a + r)``,
     ``a = C_k - b - r``, from the right one: the same integers the elements add one by one, so each scored
     cut scores as in :func:`many_class_cut_scores` bit for bit, and the class ranks sort the runs only.
