@@ -15,7 +15,7 @@ the same, is bound by memory traffic (its arrays left the L2 / L3 caches), one t
 
 Passes:
 
-* ``keys``: gather of dense ranks by (feature, row) and the packed keys (``segments._pair_keys``,
+* ``keys``: gather of dense ranks by (feature, row) and the packed keys (``segments.pair_keys``,
   ``_slot_ranks``);
 * ``sort``: ``np.sort`` of the keys and their decoding (``sorted_segments`` less the keys);
 * ``gather``: the statistics of every sorted element (``FastPath.best_splits`` less the search below it);
@@ -58,7 +58,7 @@ OUT = REPO / "benchmarks" / "out"
 
 #: (module, attribute, pass); classes as "Class.method"
 WRAPPED = [
-    (segments, "_pair_keys", "keys"), (segments, "_slot_ranks", "keys"),
+    (segments, "pair_keys", "keys"), (segments, "_slot_ranks", "keys"),
     (search, "sorted_segments", "sort"),
     (fast_search.FastPath, "best_splits", "gather"),
     (fast_search, "binary_best_splits", "score"), (fast_search, "squared_error_best_splits", "score"),
