@@ -49,7 +49,7 @@ REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO))
 
 import forestlab as fl  # noqa: E402
-from forestlab.engine import fast_search, grow, search, segments, squared_error  # noqa: E402
+from forestlab.engine import fast_search, grow, level_blocks, search, segments, squared_error  # noqa: E402
 
 sys.path.insert(0, str(REPO / "benchmarks"))
 from run import PLANS, forestlab_target, machine, make_data  # noqa: E402
@@ -73,6 +73,8 @@ WRAPPED = [
     (fast_search.FastPath, "sides", "node sums"), (fast_search.FastPath, "summaries", "node sums"),
     (grow, "draw_masks", "draws"), (grow, "_grow_level", "other"),
 ]
+#: where the level's size is read: the search a level calls, and the level itself
+SIZED = [(level_blocks, "best_splits"), (grow, "_grow_level")]
 PASSES = ["keys", "sort", "gather", "cumsum", "class changes", "segment totals", "light cuts", "score", "pick",
           "record", "partition", "subset", "node sums", "draws", "other"]
 #: level sizes (items of the search) by which the passes are split (int64 arrays of 4k items: 32 KiB, the L1d;
@@ -139,11 +141,11 @@ def profile(row, trees: int) -> dict:
     fl.Forest(trees=1, rng=0, **settings).fit(data["X"][:500], y[:500])  # NumPy's code paths loaded
     timers = Timers()
     saved = [(owner, attr, owner.__dict__[attr]) for owner, attr, _ in WRAPPED] + \
-        [(grow, "best_splits", grow.best_splits), (grow, "_grow_level", grow._grow_level)]
+        [(owner, attr, owner.__dict__[attr]) for owner, attr in SIZED]
     try:
         for owner, attr, pas in WRAPPED:
             setattr(owner, attr, timers.wrap(pas, owner.__dict__[attr]))
-        grow.best_splits = _search_size(timers, search.best_splits)
+        level_blocks.best_splits = _search_size(timers, search.best_splits)
         grow._grow_level = _level_size(timers, grow._grow_level)
         t0 = time.perf_counter()
         fl.Forest(trees=trees, rng=1, **settings).fit(data["X"], y)

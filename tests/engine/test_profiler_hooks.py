@@ -18,5 +18,6 @@ def test_every_wrapped_engine_function_exists():
         sys.path.remove(str(BENCHMARKS))
     missing = [f"{getattr(owner, '__name__', owner)}.{attr}" for owner, attr, _ in module.WRAPPED
                if attr not in owner.__dict__]
+    missing += [f"{owner.__name__}.{attr}" for owner, attr in module.SIZED if attr not in owner.__dict__]
     assert not missing
     assert {name for _, _, name in module.WRAPPED} <= set(module.PASSES)
