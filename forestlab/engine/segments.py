@@ -219,22 +219,28 @@ def pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_bi
     N = items.row.size
     m = int(ncand[0])
     if m and np.all(ncand == m):
-        # slot-major (m, N): a handful of whole-array calls per slot, whose temporaries hold N ranks and
-        # blocks of the node bases (not m * N ranks and N bases)
+        # slot-major (m, N), a block of items at a time: the block's (candidate, item) bits are one gather of
+        # the nodes' slot-0 bases plus the items, and slot j's are slot 0's plus j << (db + item_bits); each
+        # slot adds them to its ranks (five whole-block calls a slot: the block's index into ``dense``, formed
+        # in the key row, the ranks, their shift, the bases). Temporaries hold a block, not N bases.
         key = scratch(work, "key", m * N, np.int64).reshape(m, N)
-        rank = scratch(work, "slot_rank", N, data.dense.dtype)
+        rank = scratch(work, "slot_rank", min(N, _GATHER_BLOCK), data.dense.dtype)
         feature_base = cand_feat.reshape(-1, m).T * n
-        for j in range(m):
-            np.take(feature_base[j], items.node, out=key[j], mode="clip")
-            key[j] += items.row
-            np.take(dense, key[j], out=rank, mode="clip")
-            np.left_shift(rank, item_bits, out=key[j], dtype=np.int64)
-            base = ((first + j) << db) << item_bits  # (K,) the candidate's bits of every node's slot j
-            for lo in range(0, N, _GATHER_BLOCK):
-                part = np.take(base, items.node[lo:lo + _GATHER_BLOCK], mode="clip")
-                if item_bits:
-                    part |= np.arange(lo, lo + part.size)
-                key[j, lo:lo + _GATHER_BLOCK] += part
+        step, node_base = 1 << (db + item_bits), (first << db) << item_bits
+        for lo in range(0, N, _GATHER_BLOCK):
+            node = items.node[lo:lo + _GATHER_BLOCK]
+            base = node_base.take(node, mode="clip")  # (block,) slot 0's candidate bits
+            if item_bits:
+                base += np.arange(lo, lo + node.size)
+            for j in range(m):
+                part, ranks = key[j, lo:lo + node.size], rank[:node.size]
+                feature_base[j].take(node, out=part, mode="clip")
+                part += items.row[lo:lo + node.size]
+                dense.take(part, out=ranks, mode="clip")
+                np.left_shift(ranks, item_bits, out=part, dtype=np.int64)
+                part += base
+                if j + 1 < m:
+                    base += step
         return key.ravel(), None
     reps = ncand[items.node]
     pair_item = np.repeat(np.arange(N), reps)

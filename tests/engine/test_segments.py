@@ -132,3 +132,29 @@ def test_packed_sums_at_class_changes_equal_restarted_running_sums(monkeypatch):
         np.testing.assert_array_equal(a.feature, b.feature)
         np.testing.assert_array_equal(a.threshold, b.threshold)
         np.testing.assert_array_equal(a.cases, b.cases)
+
+
+@pytest.mark.parametrize("block", [7, 1 << 16])
+@pytest.mark.parametrize("item_bits", [0, 12])
+def test_pair_keys_match_their_definition_block_by_block(monkeypatch, block, item_bits):
+    """Every (item, candidate of its node) pair's key is ``(candidate << dense_bits | dense rank) << item_bits
+    | item`` (the packing written here, per pair, from its definition), whatever the block of items the
+    slot-major build takes at a time (a block of 7 items puts block edges inside nodes and slots)."""
+    from forestlab.engine import segments
+
+    monkeypatch.setattr(segments, "_GATHER_BLOCK", block)
+    data, items, mask, _ = level(3_000, 6, 11, seed=4)
+    cand = np.flatnonzero(mask)
+    cand_node, cand_feat = np.divmod(cand, data.features)
+    ncand = np.bincount(cand_node, minlength=mask.shape[0])
+    first = ncand.cumsum() - ncand
+    key, pair_item = segments.pair_keys(data, items, cand_feat, ncand, first, item_bits)
+    assert pair_item is None  # every node has three candidates: slot-major pairs
+    N, m = items.row.size, 3
+    expected = np.empty((m, N), dtype=np.int64)
+    for i in range(N):
+        for j in range(m):
+            c = first[items.node[i]] + j
+            rank = int(data.dense[cand_feat[c], items.row[i]])
+            expected[j, i] = ((int(c) << data.dense_bits | rank) << item_bits) | (i if item_bits else 0)
+    np.testing.assert_array_equal(key, expected.ravel())
