@@ -158,3 +158,34 @@ def test_many_class_forests_do_not_depend_on_the_batch(monkeypatch, kind, catego
         monkeypatch.setattr(fitting, "MAX_BATCH", size)
         forests.append(fl.Forest(trees=40, splitter=kind, categorical=categorical, rng=4).fit(X, y))
     assert_same_forest(*forests)
+
+
+@settings(max_examples=60, deadline=None)
+@given(many_class_problems())
+def test_gini_over_the_runs_with_int64_sums_equals_brute_force_cart(problem):
+    """Nodes heavier than ``many_class._NARROW_WEIGHT`` (46 340: squared class weights past int32) sum ``Q``
+    in int64: forced here for every node, the trees are still the brute-force CART trees (the default,
+    int32 sums, is checked by the test above)."""
+    saved = _many_class._NARROW_WEIGHT
+    _many_class._NARROW_WEIGHT = 0
+    try:
+        assert_tree_is_brute_force_cart(*problem)
+    finally:
+        _many_class._NARROW_WEIGHT = saved
+
+
+def test_the_runs_search_serves_tie_free_gini(monkeypatch):
+    """The test above is not vacuous: a tie-free Gini fit at ``min_leaf`` 1 scores over the runs, and with
+    every node in int64 the forest is the same as with int32 sums."""
+    calls = []
+    original = _many_class.gini_class_changes
+    monkeypatch.setattr(_many_class, "gini_class_changes", lambda *a: calls.append(1) or original(*a))
+    rng = np.random.default_rng(8)
+    X = rng.normal(size=(300, 4))
+    y = np.argmax(X @ rng.normal(size=(4, 6)) + rng.normal(size=(300, 6)), axis=1)
+    narrow = fl.Forest(trees=4, rng=2).fit(X, y)
+    assert calls
+    monkeypatch.setattr(_many_class, "_NARROW_WEIGHT", 0)
+    wide = fl.Forest(trees=4, rng=2).fit(X, y)
+    from test_reproducibility import assert_same_forest
+    assert_same_forest(narrow, wide)
