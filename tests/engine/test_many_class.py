@@ -189,3 +189,25 @@ def test_the_runs_search_serves_tie_free_gini(monkeypatch):
     wide = fl.Forest(trees=4, rng=2).fit(X, y)
     from test_reproducibility import assert_same_forest
     assert_same_forest(narrow, wide)
+
+
+@given(st.lists(st.tuples(st.integers(0, 3), st.integers(0, 4), st.integers(1, 300)), min_size=1, max_size=60),
+       st.integers(1, 4))
+def test_cell_weight_through_is_the_weight_of_the_own_class_up_to_each_run(runs, features):
+    """As above, from the (class, candidate) table: brute force, summing the earlier runs of the same
+    segment and class."""
+    runs = sorted(runs, key=lambda r: r[0])
+    classes = 5
+    present = sorted({node for node, _, _ in runs})
+    rows = [(node, j, k, v) for node in present for j in range(features) for r, k, v in runs if r == node]
+    node, place, y, w = (np.array(c) for c in zip(*rows))
+    cand = np.searchsorted(present, node) * features + place
+    C = len(present) * features
+    cell_weight = np.zeros((classes, C), dtype=np.int64)  # the class's weight in the candidate's node
+    for c in range(C):
+        for r, k, v in runs:
+            if r == present[c // features]:
+                cell_weight[k, c] += v
+    expected = [sum(w[i] for i in range(e + 1) if cand[i] == cand[e] and y[i] == y[e]) for e in range(len(y))]
+    got = _class_ranks.cell_weight_through(w, y, y * C + cand, cell_weight.ravel(), classes)
+    np.testing.assert_array_equal(got, expected)
