@@ -248,7 +248,8 @@ def _run_class_weights(seg, run_w, run_y, run_cand, node_class, classes: int, na
 
     Where the (class, candidate) cells are no more than the runs, from a table of them
     (:func:`.class_ranks.cell_weight_through`: no (node, place) per run); else (deep levels of many small
-    nodes) from the (class, node) cells and each candidate's place in its node (:func:`.class_ranks.class_weight_through`).
+    nodes) from the (class, node) cells and each candidate's place in its node
+    (:func:`.class_ranks.class_weight_through`).
     """
     by_class = node_class.reshape(classes, -1)
     nodes, C = by_class.shape[1], seg.cand_node.size
