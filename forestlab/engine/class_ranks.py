@@ -20,7 +20,7 @@ from numpy.typing import NDArray
 
 from .workspace import Workspace, scratch
 
-__all__ = ["class_ranks", "class_weight_through"]
+__all__ = ["cell_weight_through", "class_ranks", "class_weight_through"]
 
 
 def class_ranks(w: NDArray, y: NDArray, cand: NDArray, classes: int, work: Workspace | None = None,
@@ -97,4 +97,28 @@ def class_weight_through(w: NDArray, y: NDArray, cell: NDArray, place: NDArray, 
     through[order] = wp
     through -= np.take(base, cell, mode="clip")
     through -= place * class_total
+    return through
+
+
+def cell_weight_through(w: NDArray, y: NDArray, cell: NDArray, cell_weight: NDArray, classes: int,
+                        work: Workspace | None = None) -> NDArray:
+    """:func:`class_weight_through` from a table of (class, candidate) cells: per run, the weight of its class
+    in its segment up to and including it.
+
+    ``cell``: ``y * C + candidate`` (``C`` candidates, class-major); ``cell_weight``: (classes * C,) int64, the
+    weight of each cell's class in its candidate's node (every segment of a node holds all of its items).
+    Runs are in level order (candidate, value). After the stable sort of the classes the runs are in
+    (class, candidate, value) order, where the ``cumsum`` of ``w`` at a run is its own class's weight up to
+    it in its segment plus the exclusive cumulative sum of ``cell_weight`` at its cell.
+    """
+    R = w.size
+    base = np.cumsum(cell_weight, out=scratch(work, "cr_base", cell_weight.size, np.int64))
+    dtype = np.int32 if base[-1] < (1 << 31) else np.int64
+    base -= cell_weight  # (exclusive)
+    order = np.argsort(y.astype(np.uint8 if classes <= 256 else np.uint16), kind="stable")
+    wp = np.take(w, order, out=scratch(work, "cr_wp", R, dtype), mode="clip")
+    np.cumsum(wp, dtype=dtype, out=wp)
+    through = scratch(work, "cr_before", R, dtype)
+    through[order] = wp
+    through -= np.take(base.astype(dtype), cell, mode="clip")
     return through

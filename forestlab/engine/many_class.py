@@ -28,7 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from .class_ranks import class_ranks, class_weight_through
+from .class_ranks import cell_weight_through, class_ranks, class_weight_through
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts
 from .presort import TrainingData
 from .running import running_sums
@@ -192,10 +192,8 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     seg_end = seg.start + seg.size - 1
     change[seg_end] = True
     ends = np.flatnonzero(change)  # the last element of every run of one class in a segment
-    upto = np.take(np.cumsum(w, dtype=wide, out=scratch(work, "mc_cw", L, wide)), ends, mode="clip")
-    run_w = np.empty_like(upto)  # every run's weight (runs never cross segments)
-    run_w[0] = upto[0]
-    np.subtract(upto[1:], upto[:-1], out=run_w[1:])
+    cw = np.cumsum(w, dtype=wide, out=scratch(work, "mc_cw", L, wide))  # the level's weight through each element
+    upto = np.take(cw, ends, mode="clip")
     run_y = np.take(y, ends, mode="clip")
     last = np.searchsorted(ends, seg_end)  # (C,) the run ending each segment
     runs = np.diff(last, prepend=-1)
@@ -203,33 +201,32 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     run_cand = np.repeat(np.arange(last.size), runs)
     by_class = node_class.reshape(classes, -1)  # (class, node)
     nodes = by_class.shape[1]
-    ncand = np.bincount(seg.cand_node, minlength=nodes)
-    place = np.arange(last.size) - (np.cumsum(ncand) - ncand)[seg.cand_node]  # among the node's candidates
-    at = np.take(np.stack([seg.cand_node, place], axis=1).astype(np.int32), run_cand, axis=0, mode="clip")
-    cell = np.multiply(run_y, nodes, dtype=np.intp)  # (gathers cast narrower indices first)
-    cell += at[:, 0]
-    class_total = np.take(node_class, cell, mode="clip")
-    through = class_weight_through(run_w, run_y, cell, at[:, 1], class_total, node_class, ncand, classes, work)
-    seg_w = np.take(by_class.sum(axis=0), seg.cand_node, mode="clip")
+    node_w = by_class.sum(axis=0)
+    seg_w = np.take(node_w, seg.cand_node, mode="clip")
     seg_q = np.take(np.einsum("kn,kn->n", by_class, by_class), seg.cand_node, mode="clip")  # the node's Q
-    # Q_l, Q_r, W_l, W_r as four integer running sums over the level, restarted at every segment: the left
-    # ones less the previous segment's total at its first run, the right ones from the segment's total
-    # down (the previous segment's right sums end at 0)
+    narrow = np.int32 if int(node_w.max()) <= _NARROW_WEIGHT else np.int64  # (every Q below 2**31)
     R = ends.size
-    sums = np.empty((4, R), dtype=np.int64)
-    t = np.multiply(through, 2, out=sums[1])  # 2 s - r, s = b + r the class's weight through the run
+    run_w = np.empty(R, dtype=narrow)  # every run's weight (runs never cross segments)
+    run_w[0] = upto[0]
+    np.subtract(upto[1:], upto[:-1], out=run_w[1:])
+    through, twice_total = _run_class_weights(seg, run_w, run_y, run_cand, node_class, classes, narrow, work)
+    # Q_l and Q_r as two integer running sums over the level, restarted at every segment: the left one less
+    # the previous segment's Q at its first run, the right one from the segment's Q down (ending at 0)
+    sums = scratch(work, "mc_sums", 2 * R, narrow).reshape(2, R)
+    t = np.multiply(through, 2, out=sums[1], dtype=narrow, casting="unsafe")  # 2 s - r, s = b + r
     t -= run_w
     np.multiply(t, run_w, out=sums[0])  # r (2 b + r) = r (2 s - r)
-    t -= class_total
-    t -= class_total
+    t -= twice_total
     t *= run_w  # -r (2 a + r) = r (2 (s - C) - r), a = C - s after it
-    sums[2] = run_w
-    np.negative(run_w, out=sums[3])
-    sums[0, first[1:]] -= seg_q[:-1]
-    sums[1, first] += seg_q
-    sums[2, first[1:]] -= seg_w[:-1]
-    sums[3, first] += seg_w
-    q_l, q_r, wl, wr = np.cumsum(sums, axis=1, out=sums)
+    sums[0, first[1:]] -= seg_q[:-1].astype(narrow)
+    sums[1, first] += seg_q.astype(narrow)
+    q_l, q_r = np.cumsum(sums, axis=1, dtype=narrow, out=sums)
+    # W_l, W_r from the level's running weight less (or from) its value at each segment's ends
+    seg_hi = np.take(cw, seg_end, mode="clip")
+    wr = _spread_runs(seg_hi, runs, run_cand, scratch(work, "mc_wr", R, wide))
+    wr -= upto
+    seg_lo = seg_hi - seg_w.astype(wide)  # (every segment of a node holds all of its weight)
+    wl = np.subtract(upto, _spread_runs(seg_lo, runs, run_cand, scratch(work, "mc_lo", R, wide)), out=upto)
     score = scratch(work, "mc_score", R, np.float64)
     node_first = seg.node_first
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -243,6 +240,47 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     decrease = splitter_decrease(splitter, seg, cand, element, w, y, classes, parent[nodes],
                                  np.take(by_class, nodes, axis=1, mode="clip").T, sides)
     return record_cuts(seg, out, nodes, element, decrease, sides[0] >= sides[1], cand)
+
+
+def _run_class_weights(seg, run_w, run_y, run_cand, node_class, classes: int, narrow, work: Workspace | None):
+    """Per run, the weight of its class in its segment up to and including it, and twice its class's weight
+    in the node (``narrow`` integers).
+
+    Where the (class, candidate) cells are no more than the runs, from a table of them
+    (:func:`.class_ranks.cell_weight_through`: no (node, place) per run); else (deep levels of many small
+    nodes) from the (class, node) cells and each candidate's place in its node
+    (:func:`.class_ranks.class_weight_through`).
+    """
+    by_class = node_class.reshape(classes, -1)
+    nodes, C = by_class.shape[1], seg.cand_node.size
+    if C * classes <= run_w.size:
+        cell_weight = np.take(by_class, seg.cand_node, axis=1, mode="clip").ravel()  # (class, candidate)
+        cell = np.multiply(run_y, C, dtype=np.intp)
+        cell += run_cand
+        through = cell_weight_through(run_w, run_y, cell, cell_weight, classes, work)
+        return through, np.take((2 * cell_weight).astype(narrow), cell, mode="clip")
+    ncand = np.bincount(seg.cand_node, minlength=nodes)
+    place = np.arange(C) - (np.cumsum(ncand) - ncand)[seg.cand_node]  # among the node's candidates
+    at = np.take(np.stack([seg.cand_node, place], axis=1).astype(np.int32), run_cand, axis=0, mode="clip")
+    cell = np.multiply(run_y, nodes, dtype=np.intp)  # (gathers cast narrower indices first)
+    cell += at[:, 0]
+    class_total = np.take(node_class.astype(narrow), cell, mode="clip")
+    through = class_weight_through(run_w, run_y, cell, at[:, 1], class_total, node_class, ncand, classes, work)
+    class_total += class_total
+    return through, class_total
+
+
+#: Largest node weight for int32 sums of squared class weights (``46340**2 < 2**31``)
+_NARROW_WEIGHT = 46_340
+
+
+def _spread_runs(values, runs, run_cand, out):
+    """Every run's candidate's value of ``values``, into ``out``: repeated where segments average 12 runs or
+    more, else gathered by candidate."""
+    if values.size * 12 <= out.size:
+        out[:] = np.repeat(values, runs)
+        return out
+    return np.take(values, run_cand, out=out, mode="clip")
 
 
 def _spread(seg, cand, total, out):

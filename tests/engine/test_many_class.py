@@ -158,3 +158,56 @@ def test_many_class_forests_do_not_depend_on_the_batch(monkeypatch, kind, catego
         monkeypatch.setattr(fitting, "MAX_BATCH", size)
         forests.append(fl.Forest(trees=40, splitter=kind, categorical=categorical, rng=4).fit(X, y))
     assert_same_forest(*forests)
+
+
+@settings(max_examples=60, deadline=None)
+@given(many_class_problems())
+def test_gini_over_the_runs_with_int64_sums_equals_brute_force_cart(problem):
+    """Nodes heavier than ``many_class._NARROW_WEIGHT`` (46 340: squared class weights past int32) sum ``Q``
+    in int64: forced here for every node, the trees are still the brute-force CART trees (the default,
+    int32 sums, is checked by the test above)."""
+    saved = _many_class._NARROW_WEIGHT
+    _many_class._NARROW_WEIGHT = 0
+    try:
+        assert_tree_is_brute_force_cart(*problem)
+    finally:
+        _many_class._NARROW_WEIGHT = saved
+
+
+def test_the_runs_search_serves_tie_free_gini(monkeypatch):
+    """The test above is not vacuous: a tie-free Gini fit at ``min_leaf`` 1 scores over the runs, and with
+    every node in int64 the forest is the same as with int32 sums."""
+    calls = []
+    original = _many_class.gini_class_changes
+    monkeypatch.setattr(_many_class, "gini_class_changes", lambda *a: calls.append(1) or original(*a))
+    rng = np.random.default_rng(8)
+    X = rng.normal(size=(300, 4))
+    y = np.argmax(X @ rng.normal(size=(4, 6)) + rng.normal(size=(300, 6)), axis=1)
+    narrow = fl.Forest(trees=4, rng=2).fit(X, y)
+    assert calls
+    monkeypatch.setattr(_many_class, "_NARROW_WEIGHT", 0)
+    wide = fl.Forest(trees=4, rng=2).fit(X, y)
+    from test_reproducibility import assert_same_forest
+    assert_same_forest(narrow, wide)
+
+
+@given(st.lists(st.tuples(st.integers(0, 3), st.integers(0, 4), st.integers(1, 300)), min_size=1, max_size=60),
+       st.integers(1, 4))
+def test_cell_weight_through_is_the_weight_of_the_own_class_up_to_each_run(runs, features):
+    """As above, from the (class, candidate) table: brute force, summing the earlier runs of the same
+    segment and class."""
+    runs = sorted(runs, key=lambda r: r[0])
+    classes = 5
+    present = sorted({node for node, _, _ in runs})
+    rows = [(node, j, k, v) for node in present for j in range(features) for r, k, v in runs if r == node]
+    node, place, y, w = (np.array(c) for c in zip(*rows))
+    cand = np.searchsorted(present, node) * features + place
+    C = len(present) * features
+    cell_weight = np.zeros((classes, C), dtype=np.int64)  # the class's weight in the candidate's node
+    for c in range(C):
+        for r, k, v in runs:
+            if r == present[c // features]:
+                cell_weight[k, c] += v
+    expected = [sum(w[i] for i in range(e + 1) if cand[i] == cand[e] and y[i] == y[e]) for e in range(len(y))]
+    got = _class_ranks.cell_weight_through(w, y, y * C + cand, cell_weight.ravel(), classes)
+    np.testing.assert_array_equal(got, expected)
