@@ -37,13 +37,13 @@ from .presort import TrainingData
 from .running import running_sums
 from .segments import gather
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
-from .squared_error import item_moments, squared_error_best_splits
+from .squared_error import squared_error_best_splits, summed_moments
 from .workspace import Workspace, scratch
 
 __all__ = ["FastPath", "MOMENTS_COLUMN_ENTRIES", "binary_best_splits", "fast_path", "squared_error_best_splits"]
 
 #: Entries (trees x rows) of a squared-error batch above which its node sums form each item's target and square
-#: when needed (:func:`.squared_error.item_moments`; 16 bytes an entry less, 0.2x X at p = 10), not a column
+#: when needed (:func:`.squared_error.summed_moments`; 16 bytes an entry less, 0.2x X at p = 10), not a column
 MOMENTS_COLUMN_ENTRIES = 1 << 19
 
 
@@ -56,7 +56,7 @@ class FastPath:
     when there are no case weights) and the weighted centred target as one complex128 for the search, the
     weighted centred target and its square as another for the node sums (both parts added with one gather
     and one ``np.add.at``), and the weight as a contiguous float64). A batch of more than
-    :data:`MOMENTS_COLUMN_ENTRIES` holds no second column (None; :func:`.squared_error.item_moments`).
+    :data:`MOMENTS_COLUMN_ENTRIES` holds no second column (None; :func:`.squared_error.summed_moments`).
     """
 
     kind: str
@@ -96,8 +96,9 @@ class FastPath:
             out[:, 0] = np.bincount(items.node, weights=low, minlength=K)
             out[:, 1] = np.bincount(items.node, weights=high, minlength=K)
         elif self.data.weights is None:  # (with case weights the summaries sum the weights themselves)
-            weight = np.take(self.columns[0], items.wi, mode="clip").real  # (a strided part would be copied whole)
-            out[:, 0] = np.bincount(items.node, weights=weight, minlength=K)
+            for lo in range(0, items.row.size, 1 << 16):  # whole counts: exact a block at a time (less memory)
+                weight = np.take(self.columns[0], items.wi[lo:lo + (1 << 16)], mode="clip").real  # (not strided)
+                out[:, 0] += np.bincount(items.node[lo:lo + (1 << 16)], weights=weight, minlength=K)
         out[:, 2] = np.bincount(items.node, minlength=K)
         return out
 
@@ -113,9 +114,8 @@ class FastPath:
             return weight, totals, (summed > c0).astype(np.float64), (c0 == 0) | (summed == 0)
         # floating-point sums from the items, not from the parent's running sums (those carry the rounding of
         # the segments before theirs); the weights are the parent's when they are integers (no case weights)
-        values = (np.take(self.columns[1], items.wi, mode="clip") if self.columns[1] is not None
-                  else item_moments(self.columns[0], self.counts, data.stats, items))
-        moments = _summed(items.node, values, K)
+        moments = (summed_moments(self.columns[0], self.counts, data.stats, items, K) if self.columns[1] is None
+                   else _summed(items.node, np.take(self.columns[1], items.wi, mode="clip"), K))
         if data.weights is not None:
             weight = _summed(items.node, np.take(self.columns[2], items.wi, mode="clip"), K)
         summed, second = moments.real, moments.imag

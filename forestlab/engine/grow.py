@@ -212,6 +212,8 @@ def _partition(data: TrainingData, items: Items, splits: Splits, left_child: NDA
     """Send the items of split nodes to their children (order within each tree kept); ``splits`` and
     ``left_child`` (each node's left child in the next level) are indexed by ``items.node``."""
     found = splits.found
+    if not (data.missing or data.category_words) and items.row.size > _PARTITION_LEVEL:
+        return _partition_blocks(data, items, splits, left_child)
     kept = items if found.all() else items.take(found.take(items.node, mode="clip").nonzero()[0])
     row, node = kept.row, kept.node
     if data.missing or data.category_words:
@@ -222,6 +224,47 @@ def _partition(data: TrainingData, items: Items, splits: Splits, left_child: NDA
         at += row
         go_right = data.dense.ravel().take(at, mode="clip") > splits.cut_rank.take(node, mode="clip")
     return Items(row, left_child.take(node, mode="clip") + go_right, kept.wi)
+
+
+def _partition_blocks(data: TrainingData, items: Items, splits: Splits, left_child: NDArray[np.int64]) -> Items:
+    """:func:`_partition` of the numeric items of a level of more than ``_PARTITION_LEVEL``, a block of
+    ``_PARTITION_BLOCK`` items at a time, the items of unsplit nodes dropped block by block: no level-sized
+    temporaries (the level-sized partition held the peak memory of a million-row regression fit, issue 17);
+    integer arithmetic, so the same children."""
+    found = splits.found
+    keep = None if found.all() else found.take(items.node, mode="clip")
+    one = items.wi is items.row
+    if keep is None:  # (every node split: the rows and statistics indices as they are)
+        row, wi, child = items.row, items.wi, np.empty(items.row.size, dtype=left_child.dtype)
+    else:
+        size = int(np.count_nonzero(keep))
+        row, child = np.empty(size, dtype=items.row.dtype), np.empty(size, dtype=left_child.dtype)
+        wi = row if one else np.empty(size, dtype=items.wi.dtype)
+    base, dense, at = splits.feature * data.rows, data.dense.ravel(), 0
+    for lo in range(0, items.row.size, _PARTITION_BLOCK):  # (the outputs written in place, as `out`)
+        block = slice(lo, lo + _PARTITION_BLOCK)
+        if keep is None:
+            node, rows = items.node[block], items.row[block]
+            to = left_child.take(node, out=child[block], mode="clip")
+        else:  # the block's items of split nodes
+            sent = keep[block].nonzero()[0]
+            part = slice(at, at + sent.size)
+            at = part.stop
+            node = items.node[block].take(sent, mode="clip")
+            rows = items.row[block].take(sent, out=row[part], mode="clip")
+            to = left_child.take(node, out=child[part], mode="clip")
+            if not one:
+                items.wi[block].take(sent, out=wi[part], mode="clip")
+        index = base.take(node, mode="clip")
+        index += rows
+        to += dense.take(index, mode="clip") > splits.cut_rank.take(node, mode="clip")
+    return Items(row, child, wi)
+
+
+#: Items sent to their children at a time by :func:`_partition_blocks` (a few MB of temporaries) ...
+_PARTITION_BLOCK = 1 << 16
+#: ... on levels of more than this many items (smaller ones take the level-sized code, one block anyway)
+_PARTITION_LEVEL = 1 << 16
 
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:

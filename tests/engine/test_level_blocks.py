@@ -146,3 +146,27 @@ def test_the_generic_search_is_not_blocked(monkeypatch):
     X[::17, 1] = np.nan  # missing values: the generic search
     _, _, levels = _grown(monkeypatch, 1, X, y, trees=2, sampler=2, rng=1)
     assert levels == 0
+
+
+@pytest.mark.parametrize("task", ["regression", "classification"])
+@pytest.mark.parametrize("ties", [False, True])
+def test_partition_in_blocks_of_items_grows_the_same_trees(monkeypatch, task, ties):
+    # a large level sends a block of items to their children at a time (grow._partition_blocks): integer
+    # arithmetic only, so blocks of 7 items (a block boundary inside almost every node) change nothing
+    rng = np.random.default_rng(21)
+    X = rng.normal(size=(800, 5))
+    X = np.round(X, 1) if ties else X
+    y = X[:, 0] + X[:, 1] * X[:, 2] + 0.3 * rng.normal(size=800)
+    y = (y > 0).astype(np.int64) if task == "classification" else y
+
+    def fit():
+        return fl.Forest(trees=4, sampler=2, task=task, rng=3).fit(X, y)
+
+    whole = fit()
+    monkeypatch.setattr(grow, "_PARTITION_BLOCK", 7)
+    monkeypatch.setattr(grow, "_PARTITION_LEVEL", 7)
+    blocks = fit()
+    assert whole.tree(0).feature.size > 50
+    for i in range(whole.trees):
+        for name in _ARRAYS:
+            np.testing.assert_array_equal(getattr(whole.tree(i), name), getattr(blocks.tree(i), name), err_msg=name)

@@ -94,9 +94,12 @@ def test_light_near_ends_finds_every_light_cut(whole):
 
 @pytest.mark.parametrize("weighted", [False, True])
 @pytest.mark.parametrize("trees", [1, 4])
-def test_node_sums_without_the_moments_column_grow_the_same_trees(monkeypatch, weighted, trees):
+@pytest.mark.parametrize("block", [7, 1 << 16])
+def test_node_sums_without_the_moments_column_grow_the_same_trees(monkeypatch, weighted, trees, block):
     # a batch of more than MOMENTS_COLUMN_ENTRIES entries forms each item's target and square when its node
-    # sums need them, instead of holding them as a column: the same values, so the same trees bit for bit
+    # sums need them, instead of holding them as a column, a block of items at a time (and sums the root's
+    # weights a block at a time): the same values added in the same order, so the same trees bit for bit
+    monkeypatch.setattr(squared_error, "_MOMENT_BLOCK", block)
     from forestlab.engine import fast_search
 
     rng = np.random.default_rng(12)
