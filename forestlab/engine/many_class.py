@@ -148,9 +148,9 @@ def many_class_cut_scores(seg, cand, w, y, class_total, classes: int, table, min
         sums[2] -= np.take(table, t, mode="clip")
     cs, totals = running_sums(sums, seg.start, seg.cand_tree, out=sums)
     wl, gain_l, gain_r = cs
-    wr = _spread(seg, cand, totals[0], scratch(work, "mc_wr", L, totals.dtype))
+    wr = _spread(totals[0], seg.size, cand, scratch(work, "mc_wr", L, totals.dtype))
     wr -= wl
-    rest = _spread(seg, cand, totals[2], scratch(work, "mc_rest", L, totals.dtype))
+    rest = _spread(totals[2], seg.size, cand, scratch(work, "mc_rest", L, totals.dtype))
     rest -= gain_r  # the right side's Q (or sum of c log c)
     light = light_cuts(seg, wl, wr, min_leaf, lightest)
     score = scratch(work, "mc_score", L, np.float64)
@@ -223,10 +223,10 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     q_l, q_r = np.cumsum(sums, axis=1, dtype=narrow, out=sums)
     # W_l, W_r from the level's running weight less (or from) its value at each segment's ends
     seg_hi = np.take(cw, seg_end, mode="clip")
-    wr = _spread_runs(seg_hi, runs, run_cand, scratch(work, "mc_wr", R, wide))
+    wr = _spread(seg_hi, runs, run_cand, scratch(work, "mc_wr", R, wide))
     wr -= upto
     seg_lo = seg_hi - seg_w.astype(wide)  # (every segment of a node holds all of its weight)
-    wl = np.subtract(upto, _spread_runs(seg_lo, runs, run_cand, scratch(work, "mc_lo", R, wide)), out=upto)
+    wl = np.subtract(upto, _spread(seg_lo, runs, run_cand, scratch(work, "mc_lo", R, wide)), out=upto)
     score = scratch(work, "mc_score", R, np.float64)
     node_first = seg.node_first
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -274,22 +274,14 @@ def _run_class_weights(seg, run_w, run_y, run_cand, node_class, classes: int, na
 _NARROW_WEIGHT = 46_340
 
 
-def _spread_runs(values, runs, run_cand, out):
-    """Every run's candidate's value of ``values``, into ``out``: repeated where segments average 12 runs or
-    more, else gathered by candidate."""
+def _spread(values, count, owner, out):
+    """Every entry's candidate's value of ``values`` (one per candidate), into ``out``: repeated ``count``
+    times (each candidate's entries: elements or runs) where candidates average 12 entries or more, else
+    gathered by ``owner``, the candidate of every entry."""
     if values.size * 12 <= out.size:
-        out[:] = np.repeat(values, runs)
+        out[:] = np.repeat(values, count)
         return out
-    return np.take(values, run_cand, out=out, mode="clip")
-
-
-def _spread(seg, cand, total, out):
-    """Every element's segment total, into ``out``: repeated over long segments (12 elements or more on
-    average), else gathered by candidate."""
-    if total.size * 12 <= out.size:
-        out[:] = np.repeat(total, seg.size)
-        return out
-    return np.take(total, cand, out=out, mode="clip")
+    return np.take(values, owner, out=out, mode="clip")
 
 
 def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent, node_class=None,
