@@ -37,7 +37,7 @@ from .presort import TrainingData
 from .running import running_sums
 from .segments import gather
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
-from .squared_error import squared_error_best_splits, summed_moments
+from .squared_error import squared_error_best_splits, summed_moments, summed_weights
 from .workspace import Workspace, scratch
 
 __all__ = ["FastPath", "MOMENTS_COLUMN_ENTRIES", "binary_best_splits", "fast_path", "squared_error_best_splits"]
@@ -96,9 +96,7 @@ class FastPath:
             out[:, 0] = np.bincount(items.node, weights=low, minlength=K)
             out[:, 1] = np.bincount(items.node, weights=high, minlength=K)
         elif self.data.weights is None:  # (with case weights the summaries sum the weights themselves)
-            for lo in range(0, items.row.size, 1 << 16):  # whole counts: exact a block at a time (less memory)
-                weight = np.take(self.columns[0], items.wi[lo:lo + (1 << 16)], mode="clip").real  # (not strided)
-                out[:, 0] += np.bincount(items.node[lo:lo + (1 << 16)], weights=weight, minlength=K)
+            out[:, 0] = summed_weights(self.columns[0], items, K)
         out[:, 2] = np.bincount(items.node, minlength=K)
         return out
 

@@ -16,7 +16,7 @@ from .running import running_sums
 from .segments import Items
 from .workspace import Workspace, scratch
 
-__all__ = ["item_moments", "squared_error_best_splits", "summed_moments"]
+__all__ = ["item_moments", "squared_error_best_splits", "summed_moments", "summed_weights"]
 
 
 def item_moments(column, counts, stats, items):
@@ -40,6 +40,17 @@ def summed_moments(column, counts, stats, items, K: int):
     for lo in range(0, items.row.size, _MOMENT_BLOCK):
         part = Items(*(a[lo:lo + _MOMENT_BLOCK] for a in (items.row, items.node, items.wi)))
         np.add.at(out, part.node, item_moments(column, counts, stats, part))
+    return out
+
+
+def summed_weights(column, items, K: int):
+    """Every node's weight from the real part of the first column ``W + 1j * S1`` (whole counts, no case
+    weights: exact in any order), summed ``_MOMENT_BLOCK`` items at a time (a block's temporaries, not the
+    level's)."""
+    out = np.zeros(K)
+    for lo in range(0, items.row.size, _MOMENT_BLOCK):
+        weight = np.take(column, items.wi[lo:lo + _MOMENT_BLOCK], mode="clip").real  # (not strided)
+        out += np.bincount(items.node[lo:lo + _MOMENT_BLOCK], weights=weight, minlength=K)
     return out
 
 
@@ -153,7 +164,8 @@ def _light_bars(weight, min_leaf: float):
     return np.where(weight >= 2.0 * m, m * (weight - m) - 0.5, np.inf)
 
 
-#: Items whose target and square :func:`summed_moments` forms at a time (2 MiB of temporaries)
+#: Items whose target and square :func:`summed_moments` forms, or whose weights :func:`summed_weights`
+#: sums, at a time (2 MiB of temporaries)
 _MOMENT_BLOCK = 1 << 16
 #: Elements (whole segments) scored at a time by :func:`_squared_error_scores` (a few hundred KiB a piece)
 _SCORE_RUN = 1 << 15
