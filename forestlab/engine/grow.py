@@ -210,27 +210,24 @@ def _level_mask(sampler, gens, subspace, sub_tree, features: int) -> NDArray[np.
 
 def _partition(data: TrainingData, items: Items, splits: Splits, left_child: NDArray[np.int64]) -> Items:
     """Send the items of split nodes to their children (order within each tree kept); ``splits`` and
-    ``left_child`` (each node's left child in the next level) are indexed by ``items.node``."""
-    found = splits.found
-    if not (data.missing or data.category_words) and items.row.size > _PARTITION_LEVEL:
+    ``left_child`` (each node's left child in the next level) are indexed by ``items.node``. Numeric data
+    without gaps: :func:`_partition_blocks`."""
+    if not (data.missing or data.category_words):
         return _partition_blocks(data, items, splits, left_child)
+    found = splits.found
     kept = items if found.all() else items.take(found.take(items.node, mode="clip").nonzero()[0])
     row, node = kept.row, kept.node
-    if data.missing or data.category_words:
-        go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
-                              splits.category_left, data.missing)
-    else:  # numeric without gaps: above the cut's dense rank (the nodes' values lie on either side of it)
-        at = (splits.feature * data.rows).take(node, mode="clip")
-        at += row
-        go_right = data.dense.ravel().take(at, mode="clip") > splits.cut_rank.take(node, mode="clip")
+    go_right = goes_right(data.X, row, node, splits.feature, splits.threshold, splits.missing_left,
+                          splits.category_left, data.missing)
     return Items(row, left_child.take(node, mode="clip") + go_right, kept.wi)
 
 
 def _partition_blocks(data: TrainingData, items: Items, splits: Splits, left_child: NDArray[np.int64]) -> Items:
-    """:func:`_partition` of the numeric items of a level of more than ``_PARTITION_LEVEL``, a block of
-    ``_PARTITION_BLOCK`` items at a time, the items of unsplit nodes dropped block by block: no level-sized
-    temporaries (the level-sized partition held the peak memory of a million-row regression fit, issue 17);
-    integer arithmetic, so the same children."""
+    """:func:`_partition` of numeric items without gaps, ``_PARTITION_BLOCK`` items at a time: an item goes
+    right when its dense rank is above the cut's (the node's values lie on either side of it). The items of
+    unsplit nodes are dropped block by block and the children written in place, so a level makes no
+    level-sized temporaries (a level-sized partition held the peak memory of a million-row regression fit,
+    issue 17); integer arithmetic, so the same children however the blocks fall."""
     found = splits.found
     keep = None if found.all() else found.take(items.node, mode="clip")
     one = items.wi is items.row
@@ -261,10 +258,8 @@ def _partition_blocks(data: TrainingData, items: Items, splits: Splits, left_chi
     return Items(row, child, wi)
 
 
-#: Items sent to their children at a time by :func:`_partition_blocks` (a few MB of temporaries) ...
+#: Items sent to their children at a time by :func:`_partition_blocks` (a few MB of temporaries)
 _PARTITION_BLOCK = 1 << 16
-#: ... on levels of more than this many items (smaller ones take the level-sized code, one block anyway)
-_PARTITION_LEVEL = 1 << 16
 
 
 def _collect(records: list[dict[str, NDArray]], trees: int) -> list[Tree]:

@@ -151,7 +151,7 @@ def test_the_generic_search_is_not_blocked(monkeypatch):
 @pytest.mark.parametrize("task", ["regression", "classification"])
 @pytest.mark.parametrize("ties", [False, True])
 def test_partition_in_blocks_of_items_grows_the_same_trees(monkeypatch, task, ties):
-    # a large level sends a block of items to their children at a time (grow._partition_blocks): integer
+    # numeric levels send a block of items to their children at a time (grow._partition_blocks): integer
     # arithmetic only, so blocks of 7 items (a block boundary inside almost every node) change nothing
     rng = np.random.default_rng(21)
     X = rng.normal(size=(800, 5))
@@ -164,7 +164,6 @@ def test_partition_in_blocks_of_items_grows_the_same_trees(monkeypatch, task, ti
 
     whole = fit()
     monkeypatch.setattr(grow, "_PARTITION_BLOCK", 7)
-    monkeypatch.setattr(grow, "_PARTITION_LEVEL", 7)
     blocks = fit()
     assert whole.tree(0).feature.size > 50
     for i in range(whole.trees):
