@@ -15,6 +15,7 @@ from hypothesis import strategies as st
 
 import forestlab as fl
 from forestlab.engine.categories import category_order, two_category_first
+from example_samplers import FirstPlusOne
 
 
 def node_split(X, y, K, splitter, min_leaf, width, numeric=()):
@@ -128,16 +129,6 @@ def test_two_categories_take_the_order_of_the_power_iterations():
     np.testing.assert_array_equal(first[distinct & more], pos[distinct & more, 0] == 0)
     # equal shares: the code order
     assert np.all(two_category_first(np.repeat(shares[:, :1], 2, axis=1)))
-
-
-class FirstPlusOne(fl.CandidateSampler):
-    """Feature 0 and one other at random: one or two candidates a node (unequal counts per node)."""
-
-    def draw(self, rng, nodes, features):
-        mask = np.zeros((nodes, features), dtype=bool)
-        mask[:, 0] = True
-        mask[np.arange(nodes), rng.integers(0, features, size=nodes)] = True
-        return mask
 
 
 def test_levels_searched_without_the_sort_grow_the_trees_of_the_sorted_runs(monkeypatch):

@@ -16,6 +16,7 @@ import pytest
 
 import forestlab as fl
 import forestlab.engine.grow as grow
+from example_samplers import FirstPlusOne
 
 
 @pytest.fixture
@@ -103,13 +104,6 @@ class TestCandidateSampler:
         assert forest.sampler == OnlyFeature2()
 
     def test_docstring_sampler_draws_from_the_given_generator(self):
-        class FirstPlusOne(fl.CandidateSampler):
-            def draw(self, rng, nodes, features):
-                mask = np.zeros((nodes, features), dtype=bool)
-                mask[:, 0] = True
-                mask[np.arange(nodes), rng.integers(0, features, size=nodes)] = True
-                return mask
-
         X, y = problem(6)
         a = fl.Forest(trees=4, sampler=FirstPlusOne(), rng=3).fit(X, y)
         b = fl.Forest(trees=4, sampler=FirstPlusOne(), rng=3).fit(X, y)
