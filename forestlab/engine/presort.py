@@ -9,7 +9,7 @@ from numpy.typing import NDArray
 
 from .categories import words_for
 
-__all__ = ["ORDER_TABLE_BYTES", "TrainingData", "dense_ranks", "presort", "sorted_rows"]
+__all__ = ["ORDER_TABLE_BYTES", "TrainingData", "dense_ranks", "presort", "sorted_rows", "table_type"]
 
 #: Largest ``TrainingData.order`` formed. Reading rows back from it saved 5-10% of a fit where it took
 #: 40-400 KiB (twonorm, p = 10, n = 1 000 and 10 000) and nothing or a little worse at 2 and 4 MiB (p = 50,
@@ -25,7 +25,7 @@ class TrainingData:
     ----------
     X : ndarray of float64, shape (n, p)
         The predictors, C-contiguous.
-    dense : ndarray of int32, shape (p, n)
+    dense : ndarray of uint16 (n <= 65 536) or int32, shape (p, n)
         ``dense[j, i]`` is the rank of ``X[i, j]`` among the distinct values of feature ``j`` (0 for the
         smallest; equal values share a rank). Every missing value (NaN) has a rank of its own, above every
         number, in row order.
@@ -53,14 +53,14 @@ class TrainingData:
     tie_free : ndarray of bool, shape (p,)
         Whether no two cases share a dense rank of the feature (no equal values; each missing value has
         a rank of its own); then a row's rank is its position in ``order[j]``.
-    order : ndarray of int32, shape (p, n), or None
+    order : ndarray of ``dense``'s dtype, shape (p, n), or None
         ``order[j]`` lists the rows by increasing value of feature ``j``, equal values in row order. Formed
         only where a fast search uses it: no missing values, no categorical features, and at most
         ``ORDER_TABLE_BYTES`` (the table is read at random, and pays only while it stays in a core's cache).
     """
 
     X: NDArray[np.float64]
-    dense: NDArray[np.int32]
+    dense: NDArray[np.uint16] | NDArray[np.int32]
     dense_bits: int
     target: NDArray
     stats: NDArray[np.float64]
@@ -71,7 +71,7 @@ class TrainingData:
     strata: NDArray[np.int64] | None = None
     distinct_targets: bool = False
     tie_free: NDArray[np.bool_] | None = None
-    order: NDArray[np.int32] | None = None
+    order: NDArray[np.uint16] | NDArray[np.int32] | None = None
 
     @property
     def category_words(self) -> int:
@@ -106,7 +106,7 @@ def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.floa
     With ``weights``, channel 0 becomes the case weight and the statistics are multiplied by it.
     """
     n, p = X.shape
-    dense = np.empty((p, n), dtype=np.int32)  # feature-major: a node's ranks of one feature lie together
+    dense = np.empty((p, n), dtype=table_type(n))  # feature-major: a node's ranks of one feature lie together
     for j in range(p):  # a column at a time: temporaries of a few columns, not of X
         dense[j] = dense_ranks(X[:, j])
     stats = np.empty((n, 1 + statistics.shape[1]))
@@ -124,12 +124,18 @@ def presort(X: NDArray[np.float64], target: NDArray, statistics: NDArray[np.floa
                         tie_free=dense.max(axis=1, initial=0) == n - 1, order=order)
 
 
-def sorted_rows(dense: NDArray[np.int32]) -> NDArray[np.int32]:
+def table_type(n: int) -> type:
+    """dtype of the (p, n) tables of ranks and rows: ``uint16`` where every rank and row fits (n <= 65 536;
+    half the bytes the level's gathers read at random), else ``int32``."""
+    return np.uint16 if n <= 1 << 16 else np.int32
+
+
+def sorted_rows(dense: NDArray) -> NDArray:
     """``order[j]``: the rows by increasing ``dense[j]``, equal ranks in row order (one ``np.sort`` of
     ``rank << row_bits | row`` per feature)."""
     p, n = dense.shape
     row_bits = max(1, (n - 1).bit_length())
-    order = np.empty((p, n), dtype=np.int32)
+    order = np.empty((p, n), dtype=dense.dtype)
     rows = np.arange(n, dtype=np.int64)
     for j in range(p):
         key = np.left_shift(dense[j], row_bits, dtype=np.int64)

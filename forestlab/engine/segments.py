@@ -66,7 +66,7 @@ class Segments:
     code_shift: int                # bits below the candidate in ``code``
     x: NDArray[np.float64] | None = None   # (L,) feature value (category position for categorical), NaN last
     wi: NDArray[np.int64] | None = None    # (L,) index of each element's (tree, row) in the weighted statistics
-    row: NDArray | None = None             # (L,) training row of each element (int32 from positions)
+    row: NDArray | None = None             # (L,) training row of each element (the order table's dtype from positions)
     _cand_of: NDArray[np.int64] | None = None
 
     @property
@@ -192,17 +192,23 @@ def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Wor
     N, m = items.row.size, int(ncand[0])
     L = m * N
     index, ranks = _slot_ranks(data, items, cand_feat, m, work)
-    index, code = index.ravel(), ranks.ravel().view(np.uint32)
+    index = index.ravel()
     high = ((np.arange(cand_feat.size, dtype=np.uint32) << bits) + (cand_feat * n).astype(np.uint32))
-    code.reshape(m, N)[:] += high.reshape(-1, m).T.take(items.node, axis=1,
-                                     out=scratch(work, "high32", L, np.uint32).reshape(m, N), mode="clip")
+    if ranks.dtype == np.uint32:  # (the int32 ranks viewed: the code formed in their buffer)
+        code = ranks.ravel()
+        code.reshape(m, N)[:] += high.reshape(-1, m).T.take(items.node, axis=1,
+                                         out=scratch(work, "high32", L, np.uint32).reshape(m, N), mode="clip")
+    else:  # uint16 ranks: the code formed in a buffer of its own
+        code = scratch(work, "code32", L, np.uint32)
+        high.reshape(-1, m).T.take(items.node, axis=1, out=code.reshape(m, N), mode="clip")
+        code.reshape(m, N)[:] += ranks
     code.sort()
     at = np.bitwise_and(code, (1 << bits) - 1, out=index, dtype=np.int64)
-    row = data.order.ravel().take(at, out=scratch(work, "row32", L, np.int32), mode="clip")
+    row = data.order.ravel().take(at, out=scratch(work, "row32", L, data.order.dtype), mode="clip")
     if items.wi is items.row:  # one tree: a row is its own statistics index (int64: the positions are spent)
         wi = index
         np.copyto(wi, row)
-    else:  # slot * n + row: the elements of a tree are contiguous, the trees in slot order (rows kept int32)
+    else:  # slot * n + row: the elements of a tree are contiguous, the trees in slot order (rows kept narrow)
         tree_start = run_starts(cand_tree)
         wi = (cand_tree[tree_start] * n).repeat(np.add.reduceat(size, tree_start))
         wi += row
@@ -258,8 +264,9 @@ def _slot_ranks(data: TrainingData, items: Items, cand_feat, m: int, work: Works
     index = scratch(work, "key", m * N, np.int64).reshape(m, N)
     (cand_feat.reshape(-1, m).T * data.rows).take(items.node, axis=1, out=index, mode="clip")
     index += items.row
-    ranks = data.dense.ravel().take(index, out=scratch(work, "rank", m * N, data.dense.dtype).reshape(m, N),
-                    mode="clip")
+    dtype = np.uint32 if data.dense.dtype == np.int32 else data.dense.dtype  # (int32 ranks read as uint32)
+    ranks = data.dense.ravel().view(dtype).take(index, out=scratch(work, "rank", m * N, dtype).reshape(m, N),
+                                                mode="clip")
     return index, ranks
 
 

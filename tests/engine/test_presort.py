@@ -69,3 +69,19 @@ def test_no_table_of_rows_where_it_would_not_pay():
     assert presort(X, np.zeros(4), np.zeros((4, 1)), 0).order is None
     n = ORDER_TABLE_BYTES // 4 + 1  # one column whose table would take more than the limit
     assert presort(np.zeros((n, 1)), np.zeros(n), np.zeros((n, 1)), 0).order is None
+
+
+def test_narrow_tables_hold_every_rank_and_row():
+    """Ranks and rows as uint16 up to 65 536 rows (the largest rank and row, 65 535, kept exactly), int32
+    from 65 537 on; both against an argsort written here."""
+    from forestlab.engine.presort import presort, sorted_rows
+
+    rng = np.random.default_rng(3)
+    for n, kind in ((1 << 16, np.uint16), ((1 << 16) + 1, np.int32)):
+        X = rng.permutation(n).astype(float)[:, None]
+        data = presort(X, np.zeros(n), np.zeros((n, 1)), 0)
+        assert data.dense.dtype == kind
+        np.testing.assert_array_equal(data.dense[0], X[:, 0].astype(np.int64))
+        order = sorted_rows(data.dense)
+        assert order.dtype == kind
+        np.testing.assert_array_equal(order[0], np.argsort(X[:, 0], kind="stable"))
