@@ -129,11 +129,32 @@ def pick_cuts(seg, parent, base, tie, score, light, work: Workspace | None, at=N
     node_base, node_parent = (base, parent) if every else (base[nodes], parent[nodes])
     np.subtract(best, tie * np.maximum(np.abs(node_base + best), np.abs(node_parent)), out=bar, where=found)
     spent = seg.no_cut if seg.no_cut is not None else scratch(work, "no_cut", size, np.bool_)
-    reached = np.greater_equal(score, bar.repeat(counts), out=spent[:size])
-    hit = reached.nonzero()[0]
+    hit = _reaching(score, bar, node_start, counts, spent[:size]).nonzero()[0]
     pick = hit[hit.searchsorted(node_start[found])]
     nodes = nodes[found]
     return nodes, pick, base[nodes] + score[pick]
+
+
+def _reaching(score, bar, node_start, counts, out):
+    """``score >= bar`` spread over each node's elements (``counts`` from ``node_start``), into ``out``: a few
+    ten thousand elements (whole nodes) at a time, so that the spread bars stay in the core's cache, and a
+    node alone in its piece compared with its bar as a number (no spread at all)."""
+    size, K = score.size, node_start.size
+    if K == 1 or size <= _PICK_RUN:
+        return np.greater_equal(score, bar[0] if K == 1 else bar.repeat(counts), out=out)
+    cuts = np.unique(np.searchsorted(node_start, np.arange(_PICK_RUN, size, _PICK_RUN), side="right"))
+    cuts = cuts[(cuts > 0) & (cuts < K)]
+    nodes = [0, *cuts.tolist(), K]
+    bounds = [0, *node_start[cuts].tolist(), size]
+    for lo, hi, a, b in zip(nodes[:-1], nodes[1:], bounds[:-1], bounds[1:]):
+        if hi > lo:
+            np.greater_equal(score[a:b], bar[lo] if hi - lo == 1 else bar[lo:hi].repeat(counts[lo:hi]),
+                             out=out[a:b])
+    return out
+
+
+#: Elements (whole nodes) compared with their nodes' bars at a time by :func:`_reaching`
+_PICK_RUN = 1 << 15
 
 
 def record_sides(seg, out, nodes, element, cand, left, right) -> None:

@@ -80,7 +80,10 @@ class FastPath:
                 placed[items.wi] = column
                 column = placed
         index = seg.wi if seg.item is None else seg.item
-        elem = gather(column, index, scratch(work, "elem", index.size, column.dtype))
+        # squared error: a fresh array, not a scratch buffer (the allocator hands back memory freed moments ago,
+        # still in the cache, where a buffer last written a level ago is not; 0.93-0.99x the fit, paired)
+        elem = gather(column, index, np.empty(index.size, column.dtype) if self.kind == "squared_error" else
+                      scratch(work, "elem", index.size, column.dtype))
         del column  # (the items' values: not held through the search)
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)

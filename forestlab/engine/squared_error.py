@@ -100,7 +100,7 @@ def _squared_error_scores(seg, left, weight, min_leaf: float, lightest: float, w
     """
     L, C = left.size, seg.start.size
     left_w, left_s = left.real, left.imag
-    score = scratch(work, "score", L, np.float64)
+    score = np.empty(L)  # (fresh, as the elements' sums: see FastPath.best_splits)
     reach = None if min_leaf <= lightest else light_reach(seg, L, min_leaf, lightest)
     bars = None
     if whole_weights and reach is not None and _GATE_LEVEL <= L < C * _ENDS_RUN:  # light cuts from the products
