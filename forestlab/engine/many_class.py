@@ -72,18 +72,19 @@ class ManyClassPath:
 
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, means, out,
                     tie: float, work: Workspace | None):
-        """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
+        """Fill ``out`` with the best split of every node of the sorted segments ``seg``; ``means`` holds the
+        nodes' class weights, (nodes, classes), as the level's summaries summed them."""
         K = self.data.classes
-        packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
         if self.table is None and seg.no_cut is None and min_leaf <= lightest:
-            cell = (packed >> 8) * parent.size + items.node  # class-major (class, node) cells
-            node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
+            node_class = np.ascontiguousarray(means.T, dtype=np.int64).ravel()  # class-major (class, node)
             elem = (np.take(self.columns[0], seg.wi, out=scratch(work, "mc_elem32", seg.wi.size, np.int32),
                             mode="clip") if seg.item is None else
-                    gather(packed, seg.item, scratch(work, "mc_elem32", seg.item.size, np.int32)))
+                    gather(np.take(self.columns[0], items.wi, mode="clip"), seg.item,
+                           scratch(work, "mc_elem32", seg.item.size, np.int32)))
             return gini_class_changes(seg, splitter, elem, node_class, K, parent, out, tie, work)
+        packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
         cell = items.node * K + (packed >> 8)
-        node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
+        node_class = means.astype(np.int64).ravel()  # (node, class)
         column = np.take(node_class, cell, mode="clip") << 24  # and the node's weight of the item's class
         column |= packed
         if seg.item is None:  # gathered by statistics index: the items' values put in place
