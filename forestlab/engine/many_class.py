@@ -28,12 +28,13 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from .chosen_decrease import run_decrease, splitter_decrease
 from .class_ranks import cell_weight_through, class_ranks, class_weight_through
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts
 from .presort import TrainingData
 from .running import running_sums
 from .segments import gather
-from .splitter import CartSplitter, EntropySplitter, GiniSplitter, call_splitter
+from .splitter import CartSplitter, EntropySplitter, GiniSplitter
 from .workspace import Workspace, scratch
 
 __all__ = ["ManyClassPath", "entropy_table", "gini_class_changes", "many_class_applies", "many_class_cut_scores",
@@ -238,8 +239,8 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
         nodes, pick, _ = pick_cuts(seg, parent, base, tie, score, None, work, ends)
     cand, element = run_cand[pick], ends[pick]
     sides = wl[pick], wr[pick]
-    decrease = splitter_decrease(splitter, seg, cand, element, w, y, classes, parent[nodes],
-                                 np.take(by_class, nodes, axis=1, mode="clip").T, sides)
+    decrease = run_decrease(splitter, first, runs, cand, pick, run_w, run_y, classes, parent[nodes],
+                            np.take(by_class, nodes, axis=1, mode="clip").T, sides)
     return record_cuts(seg, out, nodes, element, decrease, sides[0] >= sides[1], cand)
 
 
@@ -283,41 +284,3 @@ def _spread(values, count, owner, out):
         out[:] = np.repeat(values, count)
         return out
     return np.take(values, owner, out=out, mode="clip")
-
-
-def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent, node_class=None,
-                      sides=None) -> NDArray[np.float64]:
-    """The decrease of each chosen cut (after element ``cut`` of candidate ``cand``) as the generic search
-    forms it, ``W_t i(t) - W_l i(l) - W_r i(r)`` from the sides' class weights with the splitter's own
-    ``impurity``, so a stored decrease does not depend on the search that found the split. One pass over the
-    chosen segments: as many elements as the nodes have items; given the nodes' class weights
-    ``node_class`` (chosen nodes x classes) and the sides' weights ``sides`` (integers), over the smaller side
-    of each cut only, the other side being the node's weights less those (exact: integer counts, whose sums
-    do not depend on their order)."""
-    size = seg.size[cand]
-    if node_class is None:
-        first, count = seg.start[cand], size
-    else:
-        left = cut - seg.start[cand] + 1
-        small_left = 2 * left <= size
-        first, count = np.where(small_left, seg.start[cand], cut + 1), np.where(small_left, left, size - left)
-    owner = np.repeat(np.arange(cand.size), count)
-    element = np.arange(owner.size) + np.repeat(first - (np.cumsum(count) - count), count)
-    if node_class is None:
-        owner = owner * 2 + (element > np.repeat(cut, count))
-    cell = owner * classes + np.take(y, element, mode="clip")
-    by_class = np.bincount(cell, weights=np.take(w, element, mode="clip"),
-                           minlength=cand.size * (2 if node_class is None else 1) * classes)
-    S = np.empty((cand.size, 2, 1 + classes))
-    if node_class is None:
-        S[..., 1:] = by_class.reshape(cand.size, 2, classes)
-        S[..., 0] = S[..., 1:].sum(axis=-1)
-    else:
-        counted = by_class.reshape(cand.size, classes)
-        S[:, 0, 1:] = counted
-        np.subtract(node_class, counted, out=S[:, 1, 1:])
-        swap = np.flatnonzero(~small_left)  # there the right side was counted
-        S[swap, :, 1:] = S[swap, ::-1, 1:]
-        S[:, 0, 0], S[:, 1, 0] = sides
-    impurity = call_splitter(splitter, "impurity", S)
-    return parent - S[:, 0, 0] * impurity[:, 0] - S[:, 1, 0] * impurity[:, 1]
