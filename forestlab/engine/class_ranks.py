@@ -90,7 +90,7 @@ def class_weight_through(w: NDArray, y: NDArray, cell: NDArray, place: NDArray, 
     base = np.cumsum(grid, out=scratch(work, "cr_base", grid.size, np.int64))
     base -= grid  # (exclusive)
     dtype = np.int32 if base[-1] + grid[-1] < (1 << 31) else np.int64
-    order = np.argsort(y.astype(np.uint8 if classes <= 256 else np.uint16), kind="stable")
+    order = np.argsort(y.astype(np.uint8 if classes <= 256 else np.uint16, copy=False), kind="stable")
     wp = np.take(w, order, out=scratch(work, "cr_wp", R, dtype), mode="clip")
     np.cumsum(wp, out=wp)
     through = scratch(work, "cr_before", R, dtype)
@@ -115,7 +115,7 @@ def cell_weight_through(w: NDArray, y: NDArray, cell: NDArray, cell_weight: NDAr
     base = np.cumsum(cell_weight, out=scratch(work, "cr_base", cell_weight.size, np.int64))
     dtype = np.int32 if base[-1] < (1 << 31) else np.int64
     base -= cell_weight  # (exclusive)
-    order = np.argsort(y.astype(np.uint8 if classes <= 256 else np.uint16), kind="stable")
+    order = np.argsort(y.astype(np.uint8 if classes <= 256 else np.uint16, copy=False), kind="stable")
     wp = np.take(w, order, out=scratch(work, "cr_wp", R, dtype), mode="clip")
     np.cumsum(wp, dtype=dtype, out=wp)
     through = scratch(work, "cr_before", R, dtype)

@@ -167,8 +167,10 @@ def _search_open(data, rules, gens, subspace, batch, sub_items, node_tree, total
     mask = _level_mask(rules.sampler, gens, subspace, sub_tree, data.features)
     parent = weight[open_nodes] * checked_impurity(rules.splitter, totals[open_nodes])
     search = (data, rules.splitter, rules.min_leaf, batch)
-    centred = batch.fast is not None and batch.fast.kind == "squared_error"
-    means = totals[open_nodes, 1] / weight[open_nodes] if centred else None
+    kind = None if batch.fast is None else batch.fast.kind
+    means = totals[open_nodes, 1] / weight[open_nodes] if kind == "squared_error" else None
+    if kind == "many_class":  # (the nodes' class weights, as the summaries summed them)
+        means = totals[open_nodes, 1:]
     splits = level_best_splits(*search, sub_items, sub_tree, mask, parent, means)
     if rules.sampler.per_tree or splits.found.all():
         return splits

@@ -28,12 +28,13 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from .chosen_decrease import run_decrease, splitter_decrease
 from .class_ranks import cell_weight_through, class_ranks, class_weight_through
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts
 from .presort import TrainingData
 from .running import running_sums
 from .segments import gather
-from .splitter import CartSplitter, EntropySplitter, GiniSplitter, call_splitter
+from .splitter import CartSplitter, EntropySplitter, GiniSplitter
 from .workspace import Workspace, scratch
 
 __all__ = ["ManyClassPath", "entropy_table", "gini_class_changes", "many_class_applies", "many_class_cut_scores",
@@ -72,18 +73,19 @@ class ManyClassPath:
 
     def best_splits(self, seg, splitter: CartSplitter, min_leaf: float, lightest: float, items, parent, means, out,
                     tie: float, work: Workspace | None):
-        """Fill ``out`` with the best split of every node of the sorted segments ``seg``."""
+        """Fill ``out`` with the best split of every node of the sorted segments ``seg``; ``means`` holds the
+        nodes' class weights, (nodes, classes), as the level's summaries summed them."""
         K = self.data.classes
-        packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
         if self.table is None and seg.no_cut is None and min_leaf <= lightest:
-            cell = (packed >> 8) * parent.size + items.node  # class-major (class, node) cells
-            node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
+            node_class = np.ascontiguousarray(means.T, dtype=np.int64).ravel()  # class-major (class, node)
             elem = (np.take(self.columns[0], seg.wi, out=scratch(work, "mc_elem32", seg.wi.size, np.int32),
                             mode="clip") if seg.item is None else
-                    gather(packed, seg.item, scratch(work, "mc_elem32", seg.item.size, np.int32)))
+                    gather(np.take(self.columns[0], items.wi, mode="clip"), seg.item,
+                           scratch(work, "mc_elem32", seg.item.size, np.int32)))
             return gini_class_changes(seg, splitter, elem, node_class, K, parent, out, tie, work)
+        packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
         cell = items.node * K + (packed >> 8)
-        node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
+        node_class = means.astype(np.int64).ravel()  # (node, class)
         column = np.take(node_class, cell, mode="clip") << 24  # and the node's weight of the item's class
         column |= packed
         if seg.item is None:  # gathered by statistics index: the items' values put in place
@@ -186,7 +188,8 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     L = elem.size
     wide = np.int32 if L * 255 < (1 << 31) else np.int64
     w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", L, np.int32))
-    y = np.right_shift(elem, 8, out=elem)
+    y = (np.right_shift(elem, 8, out=scratch(work, "mc_y8", L, np.uint8), casting="unsafe") if classes <= 256
+         else np.right_shift(elem, 8, out=elem))  # (one byte a class: a cheaper comparison, no cast to sort)
     change = scratch(work, "mc_change", L, np.bool_)
     np.not_equal(y[1:], y[:-1], out=change[:-1])
     seg_end = seg.start + seg.size - 1
@@ -237,8 +240,8 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
         nodes, pick, _ = pick_cuts(seg, parent, base, tie, score, None, work, ends)
     cand, element = run_cand[pick], ends[pick]
     sides = wl[pick], wr[pick]
-    decrease = splitter_decrease(splitter, seg, cand, element, w, y, classes, parent[nodes],
-                                 np.take(by_class, nodes, axis=1, mode="clip").T, sides)
+    decrease = run_decrease(splitter, first, runs, cand, pick, run_w, run_y, classes, parent[nodes],
+                            np.take(by_class, nodes, axis=1, mode="clip").T, sides)
     return record_cuts(seg, out, nodes, element, decrease, sides[0] >= sides[1], cand)
 
 
@@ -282,41 +285,3 @@ def _spread(values, count, owner, out):
         out[:] = np.repeat(values, count)
         return out
     return np.take(values, owner, out=out, mode="clip")
-
-
-def splitter_decrease(splitter: CartSplitter, seg, cand, cut, w, y, classes: int, parent, node_class=None,
-                      sides=None) -> NDArray[np.float64]:
-    """The decrease of each chosen cut (after element ``cut`` of candidate ``cand``) as the generic search
-    forms it, ``W_t i(t) - W_l i(l) - W_r i(r)`` from the sides' class weights with the splitter's own
-    ``impurity``, so a stored decrease does not depend on the search that found the split. One pass over the
-    chosen segments: as many elements as the nodes have items; given the nodes' class weights
-    ``node_class`` (chosen nodes x classes) and the sides' weights ``sides`` (integers), over the smaller side
-    of each cut only, the other side being the node's weights less those (exact: integer counts, whose sums
-    do not depend on their order)."""
-    size = seg.size[cand]
-    if node_class is None:
-        first, count = seg.start[cand], size
-    else:
-        left = cut - seg.start[cand] + 1
-        small_left = 2 * left <= size
-        first, count = np.where(small_left, seg.start[cand], cut + 1), np.where(small_left, left, size - left)
-    owner = np.repeat(np.arange(cand.size), count)
-    element = np.arange(owner.size) + np.repeat(first - (np.cumsum(count) - count), count)
-    if node_class is None:
-        owner = owner * 2 + (element > np.repeat(cut, count))
-    cell = owner * classes + np.take(y, element, mode="clip")
-    by_class = np.bincount(cell, weights=np.take(w, element, mode="clip"),
-                           minlength=cand.size * (2 if node_class is None else 1) * classes)
-    S = np.empty((cand.size, 2, 1 + classes))
-    if node_class is None:
-        S[..., 1:] = by_class.reshape(cand.size, 2, classes)
-        S[..., 0] = S[..., 1:].sum(axis=-1)
-    else:
-        counted = by_class.reshape(cand.size, classes)
-        S[:, 0, 1:] = counted
-        np.subtract(node_class, counted, out=S[:, 1, 1:])
-        swap = np.flatnonzero(~small_left)  # there the right side was counted
-        S[swap, :, 1:] = S[swap, ::-1, 1:]
-        S[:, 0, 0], S[:, 1, 0] = sides
-    impurity = call_splitter(splitter, "impurity", S)
-    return parent - S[:, 0, 0] * impurity[:, 0] - S[:, 1, 0] * impurity[:, 1]

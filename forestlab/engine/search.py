@@ -72,8 +72,9 @@ def best_splits(data: TrainingData, splitter: CartSplitter, min_leaf: float, bat
     first read), ``lightest`` (smallest positive case weight), ``fast`` (the statistics packed for one of
     :mod:`._fast_search`'s searches, or None) and ``work`` (scratch buffers reused from level to level;
     results never live in them). ``parent`` holds the nodes' ``W * i(t)``; ``means`` (fast searches) the
-    nodes' first summed statistic over their weight; ``carry`` (the fast searches of a level searched in
-    blocks, :mod:`.level_blocks`) the floating-point running sums of the blocks before this one.
+    nodes' first summed statistic over their weight (squared error) or their class weights (many classes);
+    ``carry`` (the fast searches of a level searched in blocks, :mod:`.level_blocks`) the floating-point
+    running sums of the blocks before this one.
     """
     out = Splits.none(mask.shape[0], data.category_words)
     cand = np.flatnonzero(mask)
