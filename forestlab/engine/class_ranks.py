@@ -18,6 +18,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
+from .key_sort import sorted_keys
 from .workspace import Workspace, scratch
 
 __all__ = ["cell_weight_through", "class_ranks", "class_weight_through"]
@@ -49,11 +50,12 @@ def _class_groups(y, cand, classes: int, work: Workspace | None):
     """The elements in (class, level position) order, and where each (class, candidate) group starts."""
     L = y.size
     bits = max(1, (L - 1).bit_length())
-    dtype = np.uint32 if bits + max(1, (classes - 1).bit_length()) <= 32 else np.uint64
+    key_bits = bits + max(1, (classes - 1).bit_length())
+    dtype = np.uint32 if key_bits <= 32 else np.uint64
     key = scratch(work, "cr_key", L, dtype)
     np.left_shift(y, bits, out=key, dtype=dtype, casting="unsafe")
     key |= np.arange(L, dtype=dtype)
-    key.sort()
+    key = sorted_keys(key, key_bits, work, "cr_sorted")
     order = np.bitwise_and(key, (1 << bits) - 1, out=scratch(work, "cr_order", L, np.intp), dtype=np.intp,
                            casting="unsafe")
     ordered = np.take(cand, order, out=scratch(work, "cr_cand", L, cand.dtype), mode="clip")

@@ -8,6 +8,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .categories import words_for
+from .key_sort import stable_order
 
 __all__ = ["ORDER_TABLE_BYTES", "TrainingData", "dense_ranks", "presort", "sorted_rows", "table_type"]
 
@@ -131,17 +132,13 @@ def table_type(n: int) -> type:
 
 
 def sorted_rows(dense: NDArray) -> NDArray:
-    """``order[j]``: the rows by increasing ``dense[j]``, equal ranks in row order (one ``np.sort`` of
-    ``rank << row_bits | row`` per feature)."""
+    """``order[j]``: the rows by increasing ``dense[j]``, equal ranks in row order (a stable sort of each
+    feature's ranks, :func:`.key_sort.stable_order`)."""
     p, n = dense.shape
-    row_bits = max(1, (n - 1).bit_length())
     order = np.empty((p, n), dtype=dense.dtype)
-    rows = np.arange(n, dtype=np.int64)
     for j in range(p):
-        key = np.left_shift(dense[j], row_bits, dtype=np.int64)
-        key |= rows
-        key.sort()
-        np.bitwise_and(key, (1 << row_bits) - 1, out=order[j], casting="unsafe")
+        bits = int(dense[j].max()).bit_length() if n else 1
+        np.copyto(order[j], stable_order(dense[j], bits), casting="unsafe")
     return order
 
 

@@ -3,7 +3,8 @@ feature) pair sorted by that feature's dense rank, concatenated into segments.
 
 Two ways to sort, both exact (see ``ENGINE.md``): one ``np.sort`` of packed 64-bit (candidate, dense rank,
 item) keys, or, for the fast paths where it fits, of 32-bit codes ``candidate << bits | feature * n + position``
-read back through the presorted row order.
+read back through the presorted row order. Where the machine runs a radix sort faster (:mod:`.key_sort`), the
+(candidate, dense rank) codes are put in their stable order instead, and the 32-bit codes radix-sorted.
 """
 
 from __future__ import annotations
@@ -13,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from .key_sort import radix_wanted, sorted_keys, stable_order
 from .presort import TrainingData
 from .workspace import Workspace, scratch
 
@@ -101,7 +103,8 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
     Each pair's key is ``code << item_bits | item`` with ``code = candidate << dense_bits | dense rank``:
     sorting the keys sorts every candidate's items by value, ties in item order, and the item comes back
     in the low bits; neighbours with equal codes hold equal values. Should the key need more than 63 bits,
-    a stable argsort of the codes does the same. With ``by_position`` (the fast searches, which need each
+    a stable argsort of the codes does the same, as does the radix sort of :mod:`.key_sort` (which needs no
+    item in the key) where it is the faster. With ``by_position`` (the fast searches, which need each
     element's row and statistics index, not its item), :func:`_position_segments` sorts 32-bit codes
     instead where it applies; the elements come out in the same order.
     """
@@ -119,7 +122,8 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
     N = items.row.size
     item_bits = max(1, (N - 1).bit_length())
     shift = data.dense_bits
-    if (cand.size - 1).bit_length() + data.dense_bits + item_bits <= 63:
+    code_bits = (cand.size - 1).bit_length() + data.dense_bits
+    if code_bits + item_bits <= 63 and not radix_wanted(int(size.sum()), code_bits):
         key, _ = pair_keys(data, items, cand_feat, ncand, first, item_bits, work)
         key.sort()
         item = np.bitwise_and(key, (1 << item_bits) - 1, out=scratch(work, "item", key.size, _item_type(item_bits)),
@@ -128,11 +132,12 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
             code, shift = key, shift + item_bits
         else:
             code = np.right_shift(key, item_bits, out=key)
-    else:
+    else:  # the codes' stable order (the radix sort needs no item in the key: it keeps ties in pair order)
         code, pair_item = pair_keys(data, items, cand_feat, ncand, first, 0, work)
-        perm = np.argsort(code, kind="stable")
-        item = perm % N if pair_item is None else pair_item[perm]
-        code = code[perm]
+        perm = stable_order(code, code_bits, work)
+        item = (np.remainder(perm, N, out=scratch(work, "item", perm.size, _item_type(item_bits)), casting="unsafe")
+                if pair_item is None else pair_item.take(perm))
+        code = code.take(perm, out=scratch(work, "sorted_pairs", perm.size, code.dtype), mode="clip")
     return Segments(*parts, item, code, None if tie_free else _equal_next(code, work), items, data, shift)
 
 
@@ -202,7 +207,7 @@ def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Wor
         code = scratch(work, "code32", L, np.uint32)
         high.reshape(-1, m).T.take(items.node, axis=1, out=code.reshape(m, N), mode="clip")
         code.reshape(m, N)[:] += ranks
-    code.sort()
+    code = sorted_keys(code, (cand_feat.size - 1).bit_length() + bits, work, "sorted_codes")
     at = np.bitwise_and(code, (1 << bits) - 1, out=index, dtype=np.int64)
     row = data.order.ravel().take(at, out=scratch(work, "row32", L, data.order.dtype), mode="clip")
     if items.wi is items.row:  # one tree: a row is its own statistics index (int64: the positions are spent)
