@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from .key_sort import sorted_keys
+from .key_sort import sort_keys
 from .workspace import Workspace, scratch
 
 __all__ = ["cell_weight_through", "class_ranks", "class_weight_through"]
@@ -55,7 +55,7 @@ def _class_groups(y, cand, classes: int, work: Workspace | None):
     key = scratch(work, "cr_key", L, dtype)
     np.left_shift(y, bits, out=key, dtype=dtype, casting="unsafe")
     key |= np.arange(L, dtype=dtype)
-    key = sorted_keys(key, key_bits, work, "cr_sorted")
+    sort_keys(key, key_bits)
     order = np.bitwise_and(key, (1 << bits) - 1, out=scratch(work, "cr_order", L, np.intp), dtype=np.intp,
                            casting="unsafe")
     ordered = np.take(cand, order, out=scratch(work, "cr_cand", L, cand.dtype), mode="clip")

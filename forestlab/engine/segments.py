@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from .key_sort import radix_wanted, sorted_keys, stable_order
+from .key_sort import radix_wanted, sort_keys, stable_order
 from .presort import TrainingData
 from .workspace import Workspace, scratch
 
@@ -134,10 +134,10 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
             code = np.right_shift(key, item_bits, out=key)
     else:  # the codes' stable order (the radix sort needs no item in the key: it keeps ties in pair order)
         code, pair_item = pair_keys(data, items, cand_feat, ncand, first, 0, work)
-        perm = stable_order(code, code_bits, work)
+        perm = stable_order(code, code_bits)
         item = (np.remainder(perm, N, out=scratch(work, "item", perm.size, _item_type(item_bits)), casting="unsafe")
                 if pair_item is None else pair_item.take(perm))
-        code = code.take(perm, out=scratch(work, "sorted_pairs", perm.size, code.dtype), mode="clip")
+        code.take(perm, out=code, mode="clip")  # (through a temporary copy: no buffer stays allocated)
     return Segments(*parts, item, code, None if tie_free else _equal_next(code, work), items, data, shift)
 
 
@@ -207,7 +207,7 @@ def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Wor
         code = scratch(work, "code32", L, np.uint32)
         high.reshape(-1, m).T.take(items.node, axis=1, out=code.reshape(m, N), mode="clip")
         code.reshape(m, N)[:] += ranks
-    code = sorted_keys(code, (cand_feat.size - 1).bit_length() + bits, work, "sorted_codes")
+    sort_keys(code, (cand_feat.size - 1).bit_length() + bits)
     at = np.bitwise_and(code, (1 << bits) - 1, out=index, dtype=np.int64)
     row = data.order.ravel().take(at, out=scratch(work, "row32", L, data.order.dtype), mode="clip")
     if items.wi is items.row:  # one tree: a row is its own statistics index (int64: the positions are spent)
