@@ -101,11 +101,12 @@ def _radix_order(key: NDArray, bits: int) -> NDArray[np.intp]:
     return np.lexsort(buffer)
 
 
-def _measure(repeats: int = 3) -> str:
+def _measure(repeats: int = 3, size: int = 1 << 14) -> str:
     """Time both sorts on keys shaped like a level's (runs of increasing segment numbers above random
-    17-bit ranks, 2**16 keys), alternating, best of ``repeats`` each; the radix sort must win by 15%."""
+    17-bit ranks, ``size`` keys), alternating, best of ``repeats`` each; the radix sort must win by 15%.
+    About 2.5 ms at 2**14 keys (15 ms at 2**16; AMD EPYC family 25 model 17)."""
     rng = np.random.default_rng(12345)
-    size, rank_bits = 1 << 16, 17
+    rank_bits = 17
     segment = np.repeat(np.arange(64), size // 64) << rank_bits
     key = segment + rng.integers(0, 1 << rank_bits, size)
     bits = int(key.max()).bit_length()

@@ -135,8 +135,12 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
     else:  # the codes' stable order (the radix sort needs no item in the key: it keeps ties in pair order)
         code, pair_item = pair_keys(data, items, cand_feat, ncand, first, 0, work)
         perm = stable_order(code, code_bits)
-        item = (np.remainder(perm, N, out=scratch(work, "item", perm.size, _item_type(item_bits)), casting="unsafe")
-                if pair_item is None else pair_item.take(perm))
+        if pair_item is None:  # pair j * N + i is item i; a candidate's pairs are all of its node's slot j
+            slot_base = (np.arange(cand.size) - first[cand_node]) * N
+            item = np.subtract(perm, slot_base.repeat(size), out=scratch(work, "item", perm.size,
+                                                                          _item_type(item_bits)), casting="unsafe")
+        else:
+            item = pair_item.take(perm)
         code.take(perm, out=code, mode="clip")  # (through a temporary copy: no buffer stays allocated)
     return Segments(*parts, item, code, None if tie_free else _equal_next(code, work), items, data, shift)
 
