@@ -136,7 +136,7 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
         else:
             code = np.right_shift(key, item_bits, out=key)
     else:  # the codes' stable order (the radix sort needs no item in the key: it keeps ties in pair order)
-        code, pair_item = pair_keys(data, items, cand_feat, ncand, first, 0, work)
+        code, pair_item = pair_keys(data, items, cand_feat, ncand, first, 0, work, narrow=code_bits <= 32)
         perm = stable_order(code, code_bits)
         if pair_item is None:  # pair j * N + i is item i; a candidate's pairs are all of its node's slot j
             slot_base = (np.arange(cand.size) - first[cand_node]) * N
@@ -228,10 +228,11 @@ def _position_segments(data: TrainingData, items: Items, parts, ncand, work: Wor
 
 
 def pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_bits: int,
-               work: Workspace | None = None) -> tuple[NDArray[np.int64], NDArray[np.int64] | None]:
+               work: Workspace | None = None, narrow: bool = False) -> tuple[NDArray, NDArray[np.int64] | None]:
     """The key ``(candidate << dense_bits | dense[feature, row]) << item_bits | item`` of every (item,
     candidate of its node) pair (``item_bits = 0``: no item), and the item of every pair (None when the
-    pairs are slot-major: pair ``j * N + i`` is item ``i``)."""
+    pairs are slot-major: pair ``j * N + i`` is item ``i``). ``narrow``: slot-major keys as ``uint32`` (the
+    caller knows they fit)."""
     n, db = data.rows, data.dense_bits
     dense = data.dense.ravel()
     N = items.row.size
@@ -241,10 +242,12 @@ def pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_bi
         # the nodes' slot-0 bases plus the items, and slot j's are slot 0's plus j << (db + item_bits); each
         # slot adds them to its ranks (five whole-block calls a slot: the block's index into ``dense``, formed
         # in the key row, the ranks, their shift, the bases). Temporaries hold a block, not N bases.
-        key = scratch(work, "key", m * N, np.int64).reshape(m, N)
+        dtype = np.uint32 if narrow else np.int64
+        key = scratch(work, "key32" if narrow else "key", m * N, dtype).reshape(m, N)
         rank = scratch(work, "slot_rank", min(N, _GATHER_BLOCK), data.dense.dtype)
+        index = scratch(work, "slot_index", min(N, _GATHER_BLOCK), np.int64) if narrow else None
         feature_base = cand_feat.reshape(-1, m).T * n
-        step, node_base = 1 << (db + item_bits), (first << db) << item_bits
+        step, node_base = 1 << (db + item_bits), ((first << db) << item_bits).astype(dtype)
         for lo in range(0, N, _GATHER_BLOCK):
             node = items.node[lo:lo + _GATHER_BLOCK]
             base = node_base.take(node, mode="clip")  # (block,) slot 0's candidate bits
@@ -252,11 +255,15 @@ def pair_keys(data: TrainingData, items: Items, cand_feat, ncand, first, item_bi
                 base += np.arange(lo, lo + node.size)
             for j in range(m):
                 part, ranks = key[j, lo:lo + node.size], rank[:node.size]
-                feature_base[j].take(node, out=part, mode="clip")
-                part += items.row[lo:lo + node.size]
-                dense.take(part, out=ranks, mode="clip")
-                np.left_shift(ranks, item_bits, out=part, dtype=np.int64)
-                part += base
+                at = part if index is None else index[:node.size]  # (the index into ``dense``, int64)
+                feature_base[j].take(node, out=at, mode="clip")
+                at += items.row[lo:lo + node.size]
+                dense.take(at, out=ranks, mode="clip")
+                if index is None:
+                    np.left_shift(ranks, item_bits, out=part, dtype=np.int64)
+                    part += base
+                else:  # (no item bits: the key is the rank plus the base)
+                    np.add(ranks, base, out=part, dtype=np.uint32, casting="unsafe")
                 if j + 1 < m:
                     base += step
         return key.ravel(), None
