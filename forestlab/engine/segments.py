@@ -43,9 +43,10 @@ class Items:
 class Segments:
     """The items of every (node, candidate feature) pair, sorted by that feature, concatenated.
 
-    ``code`` is ``candidate << code_shift | v`` per element: ``v`` is the dense rank (int64 codes), the dense
-    rank with the item below it (int64 codes when every candidate feature is tie-free), or ``feature * n +
-    position`` (uint32 codes, from :func:`_position_segments`). ``no_cut[e]`` is True where
+    ``code`` is ``candidate << code_shift | v`` per element: ``v`` is the dense rank (int64 codes; uint32 on
+    the radix sort's path where they fit 32 bits), the dense rank with the item below it (int64 codes when
+    every candidate feature is tie-free), or ``feature * n + position`` (uint32 codes, from
+    :func:`_position_segments`). ``no_cut[e]`` is True where
     element ``e`` and the next hold equal values of the same candidate (and at the last element): no cut lies
     after such an element; None when every candidate feature is tie-free (no neighbours hold equal values).
     Elements are known by their ``item`` (the generic search then fills ``x``,
