@@ -13,6 +13,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 import forestlab as fl
+from example_samplers import FirstPlusOne
 from forestlab.engine import key_sort
 
 TREE_ARRAYS = ("feature", "threshold", "value", "cases", "impurity_decrease", "missing_left", "category_left")
@@ -79,13 +80,15 @@ def _problems():
         "missing values": (dict(trees=2, sampler=3), holes, y),
         "categorical": (dict(trees=2, sampler=3, categorical=[4]), coded, classes),
         "batch of small trees": (dict(trees=12, sampler=2), small, (small[:, 0] > 0).astype(int)),
+        "unequal candidates per node": (dict(trees=2, sampler=FirstPlusOne()), X, target),
     }
 
 
 @pytest.mark.parametrize("problem", list(_problems()))
 def test_forests_are_the_same_with_either_sort(monkeypatch, problem):
     """Every search path (two classes, squared error, many classes, missing values, categories, batches of
-    trees, ties or none) grows the same trees bit for bit whichever sort the machine picks."""
+    trees, ties or none, a user's sampler giving nodes one or two candidates) grows the same trees bit for
+    bit whichever sort the machine picks."""
     settings, X, y = _problems()[problem]
     monkeypatch.setattr(key_sort, "RADIX_MIN", 1)
     grown = {}
