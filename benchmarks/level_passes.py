@@ -7,8 +7,9 @@ loop, for the fit rows of ``benchmarks/run.py`` (issue 17).
 
 How: the engine's functions of each pass are wrapped (module attributes replaced for the duration of the
 fit) by timers that add their wall time to a pass, nested calls subtracted from the caller, so every second
-of the level loop lands in exactly one pass. ``np.sort`` is a method call inside ``sorted_segments``: the
-sort (with the decoding of the sorted keys) is what remains of ``sorted_segments`` after the key build.
+of the level loop lands in exactly one pass. The sort (``np.sort``, or the radix sort where
+``engine/key_sort.py`` measured it faster: the header says which) runs inside ``sorted_segments``: the sort,
+with the decoding of the sorted keys, is what remains of ``sorted_segments`` after the key build.
 The wrappers add about 1 us a call (a few hundred calls a tree). Each pass is also split by level size (items
 of the search): a pass whose time per element rises with the level's size, while the work per element stays
 the same, is bound by memory traffic (its arrays left the L2 / L3 caches), one that stays flat by arithmetic.
@@ -17,7 +18,7 @@ Passes:
 
 * ``keys``: gather of dense ranks by (feature, row) and the packed keys (``segments.pair_keys``,
   ``_slot_ranks``);
-* ``sort``: ``np.sort`` of the keys and their decoding (``sorted_segments`` less the keys);
+* ``sort``: the sort of the keys and their decoding (``sorted_segments`` less the keys);
 * ``gather``: the statistics of every sorted element (``FastPath.best_splits`` less the search below it);
 * ``cumsum``: running sums (``running_sums``, ``_sums_at``);
 * ``class changes``: the two-class search's cut positions (``_class_changes``);
@@ -203,7 +204,7 @@ def main() -> None:
     info = machine()
     results = {"machine": info, "rows": []}
     print(f"level passes on {info['cpu']}, NumPy {info['numpy']}, SIMD {', '.join(info['simd_found'])}, "
-          f"load average {', '.join(f'{x:.2f}' for x in info['load_average'])}\n")
+          f"key sort {info['key_sort']}, load average {', '.join(f'{x:.2f}' for x in info['load_average'])}\n")
     for row in PLANS["full"]["fits"]:
         if words and not any(w in row[0] for w in words):
             continue

@@ -382,6 +382,8 @@ def machine() -> dict:
         info["cpu"] = platform.processor()
     info["load_average"] = os.getloadavg() if hasattr(os, "getloadavg") else None
     info.update(simd())
+    from forestlab.engine import key_sort
+    info["key_sort"] = key_sort.sort_mode()  # the sort this machine's fits take (measured once a process)
     return info
 
 
@@ -519,7 +521,7 @@ def main() -> None:
 
     info = machine()
     log(f"forestlab benchmarks ({mode}) on {info['cpu']}, {info['cores']} cores, NumPy {info['numpy']}, "
-        f"load average {info['load_average']}")
+        f"key sort {info['key_sort']}, load average {info['load_average']}")
     yardstick = Yardstick()
     if yardstick.note:
         log(f"  note: {yardstick.note}")

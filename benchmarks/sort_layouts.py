@@ -5,8 +5,9 @@
     python3 benchmarks/sort_layouts.py                      # Friedman #1, n = 100 000, one tree
     python3 benchmarks/sort_layouts.py --problem twonorm
 
-One tree is fitted and the packed keys of every level search of more than 4 000 elements are captured (the
-slot-major ``(candidate << dense_bits | dense rank) << item_bits | item`` of ``segments.pair_keys``). Each
+One tree is fitted with ``np.sort`` (``key_sort.MODE = "numpy"``: the radix path builds no item bits) and
+the packed keys of every level search of more than 4 000 elements are captured (the slot-major ``(candidate <<
+dense_bits | dense rank) << item_bits | item`` of ``segments.pair_keys``). Each
 level is then sorted three ways, each median of 7 calls:
 
 * ``today``: ``np.sort`` of the 64-bit keys and the items decoded from their low bits;
@@ -37,7 +38,7 @@ REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO))
 
 import forestlab as fl  # noqa: E402
-from forestlab.engine import segments  # noqa: E402
+from forestlab.engine import key_sort, segments  # noqa: E402
 
 sys.path.insert(0, str(REPO / "benchmarks"))
 from run import forestlab_target, machine, make_data  # noqa: E402
@@ -58,12 +59,13 @@ def capture(problem: str, n: int) -> list[dict]:
                            "first": first.copy(), "item_bits": item_bits, "dense_bits": data_.dense_bits})
         return key, pair_item
 
-    segments.pair_keys = keep
+    segments.pair_keys, mode = keep, key_sort.MODE
+    key_sort.MODE = "numpy"
     try:
         min_leaf = 5 if data["task"] == "regression" else None
         fl.Forest(1, sampler=3, min_leaf=min_leaf, task=data["task"], rng=0).fit(data["X"], forestlab_target(data))
     finally:
-        segments.pair_keys = original
+        segments.pair_keys, key_sort.MODE = original, mode
     return levels
 
 
