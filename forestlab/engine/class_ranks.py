@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from .key_sort import sort_keys
+from .key_sort import stable_order
 from .workspace import Workspace, scratch
 
 __all__ = ["cell_weight_through", "class_ranks", "class_weight_through"]
@@ -47,23 +47,16 @@ def class_ranks(w: NDArray, y: NDArray, cand: NDArray, classes: int, work: Works
 
 
 def _class_groups(y, cand, classes: int, work: Workspace | None):
-    """The elements in (class, level position) order, and where each (class, candidate) group starts."""
+    """The elements in (class, level position) order (a stable sort of the classes), and where each (class,
+    candidate) group starts."""
     L = y.size
-    bits = max(1, (L - 1).bit_length())
-    key_bits = bits + max(1, (classes - 1).bit_length())
-    dtype = np.uint32 if key_bits <= 32 else np.uint64
-    key = scratch(work, "cr_key", L, dtype)
-    np.left_shift(y, bits, out=key, dtype=dtype, casting="unsafe")
-    key |= np.arange(L, dtype=dtype)
-    sort_keys(key, key_bits)
-    order = np.bitwise_and(key, (1 << bits) - 1, out=scratch(work, "cr_order", L, np.intp), dtype=np.intp,
-                           casting="unsafe")
+    order = stable_order(y, max(1, (classes - 1).bit_length()))
     ordered = np.take(cand, order, out=scratch(work, "cr_cand", L, cand.dtype), mode="clip")
     first = scratch(work, "cr_first", L, np.bool_)
     first[0] = True
     np.not_equal(ordered[1:], ordered[:-1], out=first[1:])
-    # where the class changes (the keys are sorted by class)
-    starts = np.searchsorted(key, np.arange(1, classes, dtype=dtype) << bits)
+    # where the class changes
+    starts = np.cumsum(np.bincount(y, minlength=classes)[:-1])
     first[starts[starts < L]] = True
     return order, first
 
