@@ -1,18 +1,17 @@
-"""Sorting non-negative integer keys: NumPy's ``np.sort``, or a least-significant-digit radix sort, whichever
-this machine runs faster.
+"""The stable order of non-negative integer keys: by NumPy's ``np.sort`` of packed (key, position) keys, or by
+a least-significant-digit radix sort, whichever this machine runs faster.
 
 Every level of every tree sorts its packed keys (:mod:`.segments`), and on some CPUs NumPy's SIMD sort is far
 slower than on others with the same caches: on an AMD EPYC of family 25 model 17, where NumPy 2.4.6 dispatches
 its AVX-512 kernels, ``np.sort`` of 64-bit keys took 25-51 ns an element (10 000 to 1 000 000 keys) against
 8-11 ns for the AVX2 kernels on the same machine (``NPY_DISABLE_CPU_FEATURES``), and 6.5 ns on an AMD EPYC of
-family 26. The radix sort is
-``np.lexsort`` of the keys' 16-bit digits, lowest first: NumPy sorts 16-bit keys stably by counting (a
-counting pass per byte), in time linear in the keys, without SIMD kernels.
+family 26. The radix sort is ``np.lexsort`` of the keys' 16-bit digits, lowest first: NumPy sorts 16-bit keys
+stably by counting (a counting pass per byte), in time linear in the keys, without SIMD kernels.
 
-Both give the same result: sorted integers are the same array whatever the algorithm, and
-:func:`stable_order` breaks ties by position either way. Which one runs is measured once per process, on the
-first call with at least :data:`RADIX_MIN` keys (:func:`sort_mode`; a few milliseconds), so results never
-depend on it, only the time. :data:`MODE` fixes it instead (``"numpy"`` or ``"radix"``; tests and benchmarks).
+Both give the same result: a stable order is unique, ties in position order. Which one runs is measured once
+per process, on the first call with at least :data:`RADIX_MIN` keys (:func:`sort_mode`; a few milliseconds),
+so results never depend on it, only the time. :data:`MODE` fixes it instead (``"numpy"`` or ``"radix"``;
+tests and benchmarks).
 """
 
 from __future__ import annotations
@@ -22,7 +21,7 @@ import time
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["MODE", "RADIX_MIN", "radix_wanted", "sort_keys", "sort_mode", "stable_order"]
+__all__ = ["MODE", "RADIX_MIN", "radix_wanted", "sort_mode", "stable_order"]
 
 #: "numpy", "radix", or None: measured once, on the first call with at least :data:`RADIX_MIN` keys
 MODE: str | None = None
@@ -34,23 +33,6 @@ RADIX_MIN = 4096
 DIGIT_BITS = 16
 
 _measured: str | None = None
-
-
-def sort_keys(key: NDArray, bits: int) -> NDArray:
-    """Sort the non-negative integer ``key`` (below ``2**bits``) in place, by ``np.sort`` or by the radix sort
-    (whose reordering goes through a temporary copy: nothing stays allocated); returns ``key``.
-
-    Examples
-    --------
-    >>> import numpy as np
-    >>> sort_keys(np.array([5, 3, 9, 3]), 4)
-    array([3, 3, 5, 9])
-    """
-    if radix_wanted(key.size, bits):
-        key.take(_radix_order(key, bits), out=key, mode="clip")  # (NumPy copies a source that is also out)
-    else:
-        key.sort()
-    return key
 
 
 def stable_order(key: NDArray, bits: int) -> NDArray[np.intp]:

@@ -30,10 +30,7 @@ def test_radix_sort_equals_numpy_sort(size, bits, dtype, seed):
     with pytest.MonkeyPatch.context() as mp:
         mp.setattr(key_sort, "MODE", "radix")
         mp.setattr(key_sort, "RADIX_MIN", 1)
-        got = key_sort.sort_keys(key.copy(), bits)
         order = key_sort.stable_order(key, bits)
-    np.testing.assert_array_equal(got, np.sort(key))
-    assert got.dtype == key.dtype
     np.testing.assert_array_equal(order, np.argsort(key, kind="stable"))
 
 
