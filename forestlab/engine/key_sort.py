@@ -8,6 +8,9 @@ its AVX-512 kernels, ``np.sort`` of 64-bit keys took 25-51 ns an element (10 000
 family 26. The radix sort is ``np.lexsort`` of the keys' 16-bit digits, lowest first: NumPy sorts 16-bit keys
 stably by counting (a counting pass per byte), in time linear in the keys, without SIMD kernels.
 
+The presort ranks each feature's float values through :func:`value_order`, which on such a machine sorts
+:func:`float_keys` (the values' bits as order-preserving integers) the same way.
+
 Both give the same result: a stable order is unique, ties in position order. Which one runs is measured once
 per process, on the first call with at least :data:`RADIX_MIN` keys (:func:`sort_mode`; a few milliseconds),
 so results never depend on it, only the time. :data:`MODE` fixes it instead (``"numpy"`` or ``"radix"``;
@@ -21,7 +24,7 @@ import time
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["MODE", "RADIX_MIN", "radix_wanted", "sort_mode", "stable_order"]
+__all__ = ["MODE", "RADIX_MIN", "float_keys", "radix_wanted", "sort_mode", "stable_order", "value_order"]
 
 #: "numpy", "radix", or None: measured once, on the first call with at least :data:`RADIX_MIN` keys
 MODE: str | None = None
@@ -57,6 +60,53 @@ def stable_order(key: NDArray, bits: int) -> NDArray[np.intp]:
     packed |= np.arange(key.size, dtype=dtype)
     packed.sort()
     return np.bitwise_and(packed, (1 << index_bits) - 1, out=packed if dtype == np.intp else None, dtype=np.intp)
+
+
+def value_order(column: NDArray[np.float64]) -> NDArray[np.intp]:
+    """An order of ``column`` (float64) by increasing value, NaNs last in position order; equal values in an
+    unspecified order. ``np.argsort(column)``, or, where :func:`sort_mode` picked the radix sort, the stable
+    order of :func:`float_keys` (its four 16-bit digits: 28 against 50 ns a value for 100 000 values, 43
+    against 73 for a million, AMD EPYC family 25 model 17, where ``np.argsort`` of floats takes NumPy's
+    AVX-512 kernels).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> value_order(np.array([2.5, np.nan, -1.0, 0.0]))
+    array([2, 3, 0, 1])
+    """
+    if radix_wanted(column.size, 64):
+        return _radix_order(float_keys(column), 64)
+    return np.argsort(column)
+
+
+def float_keys(column: NDArray[np.float64]) -> NDArray[np.uint64]:
+    """``uint64`` keys in the order of the float64 values: equal values (``-0.0`` and ``0.0`` too) get equal
+    keys, and every NaN the largest key, above ``inf`` (the IEEE 754 bit patterns with the sign bit set for
+    non-negative numbers and every bit inverted for negative ones: common practice for radix sorts of
+    floating-point numbers).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> keys = float_keys(np.array([-np.inf, -1.0, -0.0, 0.0, 2.0, np.inf, np.nan]))
+    >>> bool(np.all(keys[:-1] <= keys[1:])), bool(keys[2] == keys[3])
+    (True, True)
+    """
+    key = np.add(column, 0.0).view(np.uint64)  # (-0.0 + 0.0 is 0.0)
+    flip = np.right_shift(key, np.uint64(63))
+    np.negative(flip, out=flip)  # all ones for negative numbers, else 0 (modular)
+    flip |= np.uint64(1 << 63)
+    key ^= flip
+    # NaNs: above the key of inf (positive sign) or below that of -inf (negative sign)
+    nan = key > _INF_KEY
+    nan |= key < _NEG_INF_KEY
+    np.putmask(key, nan, np.iinfo(np.uint64).max)
+    return key
+
+
+#: :func:`float_keys` of inf and -inf
+_INF_KEY, _NEG_INF_KEY = np.uint64(0xFFF0_0000_0000_0000), np.uint64(0x000F_FFFF_FFFF_FFFF)
 
 
 def sort_mode() -> str:

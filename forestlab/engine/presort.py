@@ -8,7 +8,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .categories import words_for
-from .key_sort import stable_order
+from .key_sort import stable_order, value_order
 
 __all__ = ["ORDER_TABLE_BYTES", "TrainingData", "dense_ranks", "presort", "sorted_rows", "table_type"]
 
@@ -145,8 +145,8 @@ def sorted_rows(dense: NDArray) -> NDArray:
 def dense_ranks(column: NDArray[np.float64]) -> NDArray[np.int32]:
     """Rank of every value among the distinct values of ``column`` (ties share one); NaNs rank last, each
     its own rank, in row order."""
-    order = np.argsort(column)  # not stable: equal values share their rank whatever their order
-    ordered = column[order]
+    order = value_order(column)  # (equal values share their rank whatever their order)
+    ordered = column.take(order)
     step = np.empty(column.size, dtype=np.int32)
     step[:1] = 0
     np.not_equal(ordered[1:], ordered[:-1], out=step[1:], casting="unsafe")

@@ -34,6 +34,19 @@ def test_radix_sort_equals_numpy_sort(size, bits, dtype, seed):
     np.testing.assert_array_equal(order, np.argsort(key, kind="stable"))
 
 
+@given(st.lists(st.floats(allow_nan=False) | st.sampled_from([0.0, -0.0, np.inf, -np.inf, 5e-324, -5e-324]),
+                min_size=2, max_size=40))
+def test_float_keys_compare_as_the_values(values):
+    """Keys and values compare alike pairwise (IEEE 754 comparison, ``-0.0 == 0.0``, as NumPy does), and
+    NaNs of either sign get the largest key."""
+    x = np.array(values)
+    key = key_sort.float_keys(x)
+    np.testing.assert_array_equal(key[:, None] < key[None, :], x[:, None] < x[None, :])
+    np.testing.assert_array_equal(key[:, None] == key[None, :], x[:, None] == x[None, :])
+    nan = key_sort.float_keys(np.array([np.nan, -np.nan, np.inf]))
+    assert nan[0] == nan[1] == np.iinfo(np.uint64).max > nan[2]
+
+
 @pytest.mark.parametrize("mode", ["numpy", "radix"])
 def test_stable_order_keeps_ties_in_position_order(monkeypatch, mode):
     """Both ways (the packed ``np.sort`` and the radix sort), on keys of few distinct values."""

@@ -8,10 +8,12 @@ row order, so missing cases sort last within a node and in a fixed order.
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
 import forestlab as fl
+from forestlab.engine import key_sort
 from forestlab.engine.presort import dense_ranks
 
 
@@ -23,11 +25,17 @@ def brute_dense_ranks(column):
     return ranks
 
 
-@given(st.lists(st.one_of(st.sampled_from([0.0, -0.0, 1.5, -2.0, 7.0, np.nan, np.inf, -np.inf]),
-                          st.floats(-3, 3)), min_size=1, max_size=60))
-def test_dense_ranks_equal_the_definition(values):
+@pytest.mark.parametrize("mode", ["numpy", "radix"])
+@given(values=st.lists(st.one_of(st.sampled_from([0.0, -0.0, 1.5, -2.0, 7.0, np.nan, -np.nan, np.inf, -np.inf]),
+                                 st.floats(allow_nan=False), st.floats(-3, 3)), min_size=1, max_size=60))
+def test_dense_ranks_equal_the_definition(mode, values):
+    """Both value orders (``np.argsort`` and the radix sort of :func:`key_sort.float_keys`, forced from one
+    value on), on any floats: both zeros, both infinities, NaNs of either sign, subnormals, extremes."""
     column = np.array(values, dtype=float)
-    ranks = dense_ranks(column)
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(key_sort, "MODE", mode)
+        mp.setattr(key_sort, "RADIX_MIN", 1)
+        ranks = dense_ranks(column)
     assert ranks.dtype == np.int32
     np.testing.assert_array_equal(ranks, brute_dense_ranks(column))
 
