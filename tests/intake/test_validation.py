@@ -11,6 +11,8 @@ import warnings
 
 import numpy as np
 import pytest
+from hypothesis import example, given
+from hypothesis import strategies as st
 
 import forestlab as fl
 
@@ -334,3 +336,38 @@ def test_a_declared_class_with_no_cases_is_refused():
         fl.Forest(trees=2).fit(X, y)
     forest = fl.Forest(trees=2, rng=0).fit(X, y.cat.remove_unused_categories())
     assert forest.classes.tolist() == ["ok", "scrap"]
+
+
+@given(st.sampled_from(["i1", "i2", "i8", "u1", "u8", "f8"]), st.integers(0, 2**64 - 1), st.integers(0, 300),
+       st.integers(1, 50), st.booleans())
+@example("i1", 0, 255, 50, True)  # -128 to 127: a difference no int8 holds
+@example("i8", 0, 300, 50, True)  # from the smallest int64
+@example("u8", 2**64 - 1, 300, 50, True)  # up to the largest uint64
+def test_counted_classes_equal_numpy_unique(dtype, base, span, size, integral):
+    """Class labels found by counting (integer or integral-float labels of a small range) against
+    ``np.unique(return_inverse=True)`` (NumPy as the reference), at every integer width's extremes, and
+    the cases it leaves to ``np.unique`` (fractions, ranges wider than its table)."""
+    from forestlab.intake.validation import _counted_classes
+
+    kind = np.dtype(dtype)
+    rng = np.random.default_rng(base % 2**32)
+    if kind.kind == "f":
+        labels = (rng.integers(0, span + 1, size) - span // 2).astype(float)
+        if not integral:  # two labels a fraction apart
+            labels[rng.integers(0, size)] = 0.25 + labels.max()
+    else:
+        info = np.iinfo(kind)
+        low = info.min + base % max(1, int(info.max) - int(info.min) - span + 1)
+        labels = np.array([low + int(v) for v in rng.integers(0, span + 1, size)], dtype=object).astype(kind)
+    found = _counted_classes(labels)
+    if kind.kind == "f" and not integral and size > 1:
+        assert found is None
+        return
+    classes, codes = np.unique(labels, return_inverse=True)
+    assert found is not None
+    assert found[0].dtype == classes.dtype
+    np.testing.assert_array_equal(found[0], classes)
+    np.testing.assert_array_equal(found[1], codes.reshape(-1))
+    wide = np.array([0, 2**17], dtype=kind) if kind.itemsize > 2 or kind.kind == "f" else None
+    if wide is not None:
+        assert _counted_classes(wide) is None
