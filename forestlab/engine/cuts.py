@@ -58,7 +58,7 @@ def segment_totals(seg, total: NDArray, work: Workspace | None = None, out: NDAr
     ten thousand elements at a time into the buffer, so that no level-sized temporary is made. Else one
     gather by candidate (about 1.2-1.6 ns an element with the shift that forms the candidates).
     """
-    L = seg.code.size
+    L = seg.elements
     repeat = total.size * 12 <= L
     if repeat and L <= 4 * _REPEAT_RUN:
         return np.repeat(total, seg.size)

@@ -215,9 +215,9 @@ def binary_best_splits(seg, splitter, min_leaf: float, lightest: float, elem, pa
         # segment totals reuse their buffer
         cand_at = None
         left, total = running_sums(elem, seg.start, seg.cand_tree, out=elem)
-        right = segment_totals(seg, total, work, seg.code if seg.code.dtype == np.int64 else None)
+        right = segment_totals(seg, total, work, seg.spare_codes())
     else:
-        cand_at = _candidates_at(seg, at)
+        cand_at = seg.candidates_at(at)
         left, total = _sums_at(seg, elem, at, cand_at, work)
         # the running sums are spent: where they fit, the right sums and the scores take their buffer
         spare = elem if 2 * at.size <= elem.size else None
@@ -325,12 +325,6 @@ def _sums_at(seg, elem, at, cand_at, work: Workspace | None):
 
 #: Levels of at least this many elements keep their packed running sums restarted per segment
 _PACKED_LEVEL_LIMIT = (1 << 31) // 255
-
-
-def _candidates_at(seg, element: NDArray[np.intp]) -> NDArray[np.int64]:
-    """Candidate of each of the increasing ``element`` (read from the codes, which hold it in their high
-    bits)."""
-    return np.right_shift(seg.code.take(element, mode="clip"), seg.code_shift).astype(np.int64, copy=False)
 
 
 def _half_gini_score(W, c1, out):

@@ -95,7 +95,7 @@ class ManyClassPath:
         index = seg.wi if seg.item is None else seg.item
         elem = np.take(column, index, out=scratch(work, "mc_elem", index.size, np.int64), mode="clip")
         L = elem.size
-        cand = np.right_shift(seg.code, seg.code_shift, out=scratch(work, "mc_cand", L, np.int32), casting="unsafe")
+        cand = seg.int32_candidates(scratch(work, "mc_cand", L, np.int32))
         w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", L, np.int32), casting="unsafe")
         y = np.bitwise_and(np.right_shift(elem, 8), 0xFFFF, out=scratch(work, "mc_y", L, np.int32), casting="unsafe")
         class_total = np.right_shift(elem, 24, out=elem)

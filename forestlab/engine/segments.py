@@ -62,7 +62,7 @@ class Segments:
     node_first: NDArray[np.int64]  # first candidate of every node that has candidates
     item: NDArray | None           # (L,) the level's item of each element, int32 where it fits (None: ``row``,
                                    # ``wi`` given)
-    code: NDArray                  # (L,) candidate and value of each element
+    _code: NDArray                 # (L,) candidate and value of each element (read as ``code``)
     no_cut: NDArray[np.bool_] | None  # (L,) equal value next (None: never)
     items: Items
     data: TrainingData
@@ -71,14 +71,59 @@ class Segments:
     wi: NDArray[np.int64] | None = None    # (L,) index of each element's (tree, row) in the weighted statistics
     row: NDArray | None = None             # (L,) training row of each element (the order table's dtype from positions)
     _cand_of: NDArray[np.int64] | None = None
+    _order: NDArray[np.intp] | None = None  # the order ``_code`` is still to be put in (None: it is)
+
+    @property
+    def code(self) -> NDArray:
+        """(L,) candidate and value of each element. The radix sort's path leaves the codes of tie-free
+        levels in pair order with their order beside them (the fast searches mostly need the elements'
+        candidates only, which :attr:`cand_of` repeats without them): they are put in order on first reading
+        (about 1 ns an element)."""
+        if self._order is not None:
+            self._code.take(self._order, out=self._code, mode="clip")  # (through a temporary copy)
+            self._order = None
+        return self._code
 
     @property
     def cand_of(self) -> NDArray[np.int64]:
-        """(L,) candidate of each element (int64 codes: formed in place of ``code``)."""
+        """(L,) candidate of each element (int64 codes: formed in place of ``code``; codes not yet in order:
+        each candidate repeated over its segment, the codes left as they are)."""
         if self._cand_of is None:
-            self._cand_of = np.right_shift(self.code, self.code_shift, out=self.code) \
-                if self.code.dtype == np.int64 else np.right_shift(self.code, self.code_shift, dtype=np.int64)
+            if self._order is not None:
+                self._cand_of = np.repeat(np.arange(self.start.size), self.size)
+            elif self._code.dtype == np.int64:
+                self._cand_of = np.right_shift(self._code, self.code_shift, out=self._code)
+            else:
+                self._cand_of = np.right_shift(self._code, self.code_shift, dtype=np.int64)
         return self._cand_of
+
+    @property
+    def elements(self) -> int:
+        """L, the number of elements."""
+        return int(self.start[-1] + self.size[-1]) if self.start.size else 0
+
+    def int32_candidates(self, out: NDArray[np.int32]) -> NDArray[np.int32]:
+        """:attr:`cand_of` as int32, in ``out`` from the codes, or (codes not yet in order) repeated per
+        segment, the codes left as they are."""
+        if self._order is not None:
+            return np.repeat(np.arange(self.start.size, dtype=np.int32), self.size)
+        return np.right_shift(self.code, self.code_shift, out=out, casting="unsafe")
+
+    def candidates_at(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
+        """Candidate of each of the given elements, read from the codes or from :attr:`cand_of` where the
+        codes are not yet in order."""
+        if self._order is not None:
+            return self.cand_of.take(element, mode="clip")
+        return np.right_shift(self._code.take(element, mode="clip"), self.code_shift).astype(np.int64, copy=False)
+
+    def spare_codes(self) -> NDArray[np.int64] | None:
+        """The int64 codes' buffer, for a caller that reads no code after it (a level's spent scratch: the
+        candidates are formed first, :attr:`cand_of`), or None (narrower codes)."""
+        if self._code.dtype != np.int64:
+            return None
+        self.cand_of  # noqa: B018 (the candidates first: in place of the codes, or repeated)
+        spare, self._code, self._order = self._code, None, None
+        return spare
 
     def candidate(self, element: NDArray[np.intp]) -> NDArray[np.int64]:
         """Candidate of the given elements (segments are never empty)."""
@@ -145,6 +190,8 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
                                                                           _item_type(item_bits)), casting="unsafe")
         else:
             item = pair_item.take(perm)
+        if tie_free:  # (put in order when read: :attr:`Segments.code`)
+            return Segments(*parts, item, code, None, items, data, shift, _order=perm)
         code.take(perm, out=code, mode="clip")  # (through a temporary copy: no buffer stays allocated)
     return Segments(*parts, item, code, None if tie_free else _equal_next(code, work), items, data, shift)
 

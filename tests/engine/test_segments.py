@@ -114,7 +114,7 @@ def test_segment_totals_spread_every_total_over_its_segment(segments, mean_size)
     size[rng.integers(0, segments)] = 2 * mean_size + 70_000 if segments > 3 else size[0]  # one long segment
     start = np.cumsum(size) - size
     total = rng.integers(-2**40, 2**40, segments)
-    seg = SimpleNamespace(start=start, size=size, code=np.empty(size.sum(), dtype=np.int64),
+    seg = SimpleNamespace(start=start, size=size, elements=int(size.sum()),
                           cand_of=np.repeat(np.arange(segments), size))
     for out in (None, np.full(size.sum(), 7, dtype=np.int64)):
         np.testing.assert_array_equal(segment_totals(seg, total, None, out), np.repeat(total, size))
