@@ -28,7 +28,8 @@ from .cuts import record_cuts
 from .many_class import ManyClassPath, entropy_table, many_class_cut_scores, splitter_decrease
 from .presort import TrainingData
 from .run_gini import run_gini_splits
-from .segments import Segments, gather, run_starts
+from .elements import Segments
+from .segments import run_starts
 from .splitter import CartSplitter, EntropySplitter
 from .workspace import Workspace, scratch
 
@@ -66,8 +67,8 @@ class CategoryRunsPath(ManyClassPath):
         node_class = np.bincount(cell, weights=packed & 0xFF, minlength=parent.size * K).astype(np.int64)
         column = np.take(node_class, cell, mode="clip") << 24  # and the node's weight of the item's class
         column |= packed
-        L = seg.item.size
-        elem = gather(column, seg.item, scratch(work, "mc_elem", L, np.int64))
+        L = seg.elements
+        elem = seg.item_values(column, scratch(work, "mc_elem", L, np.int64))
         cand = np.right_shift(seg.code, seg.code_shift)
         runs = _order_runs(seg, elem, cand, node_class.reshape(parent.size, K), work)
         if runs is not None and self.table is None and runs.cat.size == runs.start.size:  # Gini, all categorical

@@ -17,8 +17,9 @@ import numpy as np
 
 from .category_runs import CategoryRunsPath, _ordered
 from .run_gini import run_gini_splits
-from .segments import Items, Segments, pair_keys
-from .workspace import Workspace, scratch
+from .elements import Items, Segments
+from .segments import pair_keys
+from .workspace import Workspace
 
 __all__ = ["unsorted_gini_splits"]
 

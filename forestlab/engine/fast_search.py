@@ -35,7 +35,7 @@ from .cuts import light_cuts, per_node, pick_cuts, record_cuts, record_sides, se
 from .many_class import ManyClassPath, many_class_applies, many_class_path
 from .presort import TrainingData
 from .running import running_sums
-from .segments import gather
+from .elements import gather
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter, SquaredErrorSplitter
 from .squared_error import squared_error_best_splits, summed_moments, summed_weights
 from .workspace import Workspace, scratch
@@ -71,19 +71,20 @@ class FastPath:
         node's summed first statistic over its weight, which the squared-error search centres on; ``carry``:
         the floating-point running sums of the blocks of the level before this one, :func:`.running_sums`)."""
         column = self.columns[0]
-        if seg.item is not None or self.kind == "squared_error":  # the level's items' values
+        by_item = seg.by_item
+        if by_item or self.kind == "squared_error":  # the level's items' values
             column = np.take(column, items.wi, mode="clip")
         if self.kind == "squared_error":  # each item's target centred on its node's mean
             column.imag -= column.real * np.take(means, items.node, mode="clip")
-            if seg.item is None:  # gathered by statistics index below: the centred values put in place
+            if not by_item:  # gathered by statistics index below: the centred values put in place
                 placed = scratch(work, "centred", self.columns[0].size, column.dtype)
                 placed[items.wi] = column
                 column = placed
-        index = seg.wi if seg.item is None else seg.item
+        L = seg.elements
         # squared error: a fresh array, not a scratch buffer (the allocator hands back memory freed moments ago,
         # still in the cache, where a buffer last written a level ago is not; 0.93-0.99x the fit, paired)
-        elem = gather(column, index, np.empty(index.size, column.dtype) if self.kind == "squared_error" else
-                      scratch(work, "elem", index.size, column.dtype))
+        out_ = np.empty(L, column.dtype) if self.kind == "squared_error" else scratch(work, "elem", L, column.dtype)
+        elem = seg.item_values(column, out_) if by_item else gather(column, seg.wi, out_)
         del column  # (the items' values: not held through the search)
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)

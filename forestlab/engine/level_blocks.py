@@ -38,7 +38,7 @@ import numpy as np
 from .fast_search import FastPath
 from .running import Carry
 from .search import Splits, best_splits
-from .segments import Items
+from .elements import Items
 
 __all__ = ["BLOCK_ELEMENTS", "level_best_splits"]
 

@@ -33,7 +33,6 @@ from .class_ranks import cell_weight_through, class_ranks, class_weight_through
 from .cuts import light_cuts, per_node, pick_cuts, record_cuts
 from .presort import TrainingData
 from .running import running_sums
-from .segments import gather
 from .splitter import CartSplitter, EntropySplitter, GiniSplitter
 from .workspace import Workspace, scratch
 
@@ -78,22 +77,22 @@ class ManyClassPath:
         K = self.data.classes
         if self.table is None and seg.no_cut is None and min_leaf <= lightest:
             node_class = np.ascontiguousarray(means.T, dtype=np.int64).ravel()  # class-major (class, node)
-            elem = (np.take(self.columns[0], seg.wi, out=scratch(work, "mc_elem32", seg.wi.size, np.int32),
-                            mode="clip") if seg.item is None else
-                    gather(np.take(self.columns[0], items.wi, mode="clip"), seg.item,
-                           scratch(work, "mc_elem32", seg.item.size, np.int32)))
+            elem = scratch(work, "mc_elem32", seg.elements, np.int32)
+            elem = (seg.item_values(np.take(self.columns[0], items.wi, mode="clip"), elem) if seg.by_item else
+                    np.take(self.columns[0], seg.wi, out=elem, mode="clip"))
             return gini_class_changes(seg, splitter, elem, node_class, K, parent, out, tie, work)
         packed = np.take(self.columns[0], items.wi, mode="clip")  # the level's items' count | class << 8
         cell = items.node * K + (packed >> 8)
         node_class = means.astype(np.int64).ravel()  # (node, class)
         column = np.take(node_class, cell, mode="clip") << 24  # and the node's weight of the item's class
         column |= packed
-        if seg.item is None:  # gathered by statistics index: the items' values put in place
+        elem = scratch(work, "mc_elem", seg.elements, np.int64)
+        if seg.by_item:
+            elem = seg.item_values(column, elem)
+        else:  # gathered by statistics index: the items' values put in place
             placed = scratch(work, "mc_placed", self.columns[0].size, np.int64)
             placed[items.wi] = column
-            column = placed
-        index = seg.wi if seg.item is None else seg.item
-        elem = np.take(column, index, out=scratch(work, "mc_elem", index.size, np.int64), mode="clip")
+            elem = np.take(placed, seg.wi, out=elem, mode="clip")
         L = elem.size
         cand = seg.int32_candidates(scratch(work, "mc_cand", L, np.int32))
         w = np.bitwise_and(elem, 0xFF, out=scratch(work, "mc_w", L, np.int32), casting="unsafe")
@@ -180,8 +179,8 @@ def gini_class_changes(seg, splitter: CartSplitter, elem, node_class, classes: i
     every (class, node), class-major. Along a run of one class the Gini score is a strictly convex function of
     the weight moved left (``u + 2 d + (A + d**2) / u`` on each side, ``u`` the side's weight), and the
     decrease is 0 at a segment's ends, so no cut inside a run is best (Fayyad & Irani 1992, Theorem 1, for
-    any number of classes; as :func:`.fast_search._class_changes` for two). A run of class ``k`` and weight ``r`` preceded
-    by ``b`` of its class in the segment adds ``r (2 b + r)`` to the left ``Q`` and takes ``r (2 a + r)``,
+    any number of classes; as :func:`.fast_search._class_changes` for two). A run of class ``k`` and weight ``r``
+    preceded by ``b`` of its class in the segment adds ``r (2 b + r)`` to the left ``Q`` and takes ``r (2 a + r)``,
     ``a = C_k - b - r``, from the right one: the same integers the elements add one by one, so each scored
     cut scores as in :func:`many_class_cut_scores` bit for bit, and the class ranks sort the runs only.
     """

@@ -21,7 +21,8 @@ from .cuts import record_cuts
 from .key_sort import stable_order
 from .presort import TrainingData
 from .running import running_sums
-from .segments import Items, Segments, run_starts, sorted_segments
+from .elements import Items, Segments
+from .segments import run_starts, sorted_segments
 from .splitter import CartSplitter, call_splitter
 
 __all__ = ["Items", "Splits", "best_splits", "checked_impurity"]

@@ -13,7 +13,7 @@ import numpy as np
 
 from .cuts import light_reach, per_node, pick_cuts, record_cuts, record_sides
 from .running import running_sums
-from .segments import Items
+from .elements import Items
 from .workspace import Workspace, scratch
 
 __all__ = ["item_moments", "squared_error_best_splits", "summed_moments", "summed_weights"]

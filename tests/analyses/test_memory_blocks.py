@@ -80,6 +80,7 @@ def test_predictions_in_row_blocks_equal_the_per_tree_table_reduced_at_once(monk
 
 
 def test_fit_with_narrow_items_gathered_in_small_blocks_grows_the_same_trees(monkeypatch):
+    from forestlab.engine import elements as _elements
     from forestlab.engine import segments as _segments
 
     rng = np.random.default_rng(4)
@@ -92,7 +93,8 @@ def test_fit_with_narrow_items_gathered_in_small_blocks_grows_the_same_trees(mon
         return [[getattr(f.tree(b), k.name) for k in fields(f.tree(b))] for b in range(3)]
 
     whole = trees(y), trees(y, min_leaf=3), trees(yr)
-    monkeypatch.setattr(_segments, "_GATHER_BLOCK", 7)
+    monkeypatch.setattr(_segments, "_GATHER_BLOCK", 7)  # the keys' blocks
+    monkeypatch.setattr(_elements, "_GATHER_BLOCK", 7)  # the gathers' blocks
     blocked = trees(y), trees(y, min_leaf=3), trees(yr)
     for a, b in zip(whole, blocked):
         assert all(_same(u, v) for ta, tb in zip(a, b) for u, v in zip(ta, tb))

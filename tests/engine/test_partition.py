@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 
 from forestlab.engine import grow
-from forestlab.engine.segments import Items
+from forestlab.engine.elements import Items
 
 
 @pytest.mark.parametrize("block", [5, 1 << 16])

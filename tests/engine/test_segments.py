@@ -13,7 +13,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import forestlab as fl
-from forestlab.engine.segments import Items, sorted_segments
+from forestlab.engine.elements import Items
+from forestlab.engine.segments import sorted_segments
 
 
 def level(n, p, nodes, seed, rounding=None):
@@ -49,7 +50,7 @@ def test_segments_are_each_node_sorted_by_value_ties_in_item_order(monkeypatch, 
     data, items, mask, X = level(n, p, nodes, seed=n + nodes, rounding=rounding)
     cand = np.flatnonzero(mask)
     seg = sorted_segments(data, items, np.zeros(nodes, dtype=np.int64), mask, cand, by_position=by_position)
-    assert (seg.item is None) == (by_position and rounding is None and mode == "numpy")  # which path ran
+    assert seg.by_item != (by_position and rounding is None and mode == "numpy")  # which path ran
     expected, no_cut = [], []
     for c in cand:  # reference: per candidate, lexsort by (value, item)
         k, j = divmod(c, p)
@@ -59,7 +60,13 @@ def test_segments_are_each_node_sorted_by_value_ties_in_item_order(monkeypatch, 
         expected.append(ordered)
         no_cut.append(np.append(X[items.row[ordered[1:]], j] == X[items.row[ordered[:-1]], j], True))
     expected = np.concatenate(expected)
-    if seg.item is None:
+    if seg.by_item:  # what the searches read before any item is formed (the radix path forms them when read)
+        some = np.unique(np.random.default_rng(1).integers(0, expected.size, 50))
+        np.testing.assert_array_equal(seg.items_at(some), expected[some])
+        values = np.random.default_rng(2).normal(size=items.row.size) * (1 + 1j)
+        np.testing.assert_array_equal(seg.item_values(values, np.empty(expected.size, complex)), values[expected])
+        np.testing.assert_array_equal(seg.cand_of, np.repeat(np.arange(cand.size), seg.size))
+    if not seg.by_item:
         np.testing.assert_array_equal(seg.row, items.row[expected])
         np.testing.assert_array_equal(seg.wi, items.wi[expected])
     else:
@@ -74,6 +81,9 @@ def test_segments_are_each_node_sorted_by_value_ties_in_item_order(monkeypatch, 
     else:
         np.testing.assert_array_equal(seg.no_cut[inner], ref_no_cut[inner])
     np.testing.assert_array_equal(seg.cand_of, np.repeat(np.arange(cand.size), seg.size))
+    if seg.code.dtype != np.int64:  # (int64 codes hold the candidates now: formed in their place)
+        np.testing.assert_array_equal(seg.code >> seg.code_shift, seg.cand_of)
+        assert np.all(seg.code[1:] >= seg.code[:-1])  # the codes in order when read
 
 
 @settings(max_examples=60, deadline=None)
