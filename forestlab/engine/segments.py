@@ -63,17 +63,28 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
         code, pair_item = pair_keys(data, items, cand_feat, ncand, first, 0, work, narrow=code_bits <= 32)
         perm = stable_order(code, code_bits)
         # pair j * N + i is item i (slot-major pairs); a candidate's pairs are all of its node's slot j: the
-        # items are formed when read (:attr:`Segments.item`)
+        # items are formed when read (:attr:`Segments.item`), except on large levels (working memory: the
+        # order would live through the search, and the values repeated per slot beside the elements')
         item, pairs = (None, perm) if pair_item is None else (pair_item.take(perm), None)
         slot_base = None if pairs is None else (np.arange(cand.size) - first[cand_node]) * N
-        if tie_free:  # (put in order when read: :attr:`Segments.code`)
+        lazy = perm.size <= LAZY_ELEMENTS
+        if pairs is not None and not lazy:
+            item = np.subtract(perm, slot_base.repeat(size), out=scratch(work, "item", perm.size,
+                                                                          _item_type(item_bits)), casting="unsafe")
+            pairs = slot_base = None
+        if tie_free and lazy:  # (put in order when read: :attr:`Segments.code`)
             return Segments(*parts, item, code, None, items, data, shift, _order=perm, _pairs=pairs,
                             _slot_base=slot_base)
         code.take(perm, out=code, mode="clip")  # (through a temporary copy: no buffer stays allocated)
-        return Segments(*parts, item, code, _equal_next(code, work), items, data, shift, _pairs=pairs,
-                        _slot_base=slot_base)
+        return Segments(*parts, item, code, None if tie_free else _equal_next(code, work), items, data, shift,
+                        _pairs=pairs, _slot_base=slot_base)
     return Segments(*parts, item, code, None if tie_free else _equal_next(code, work), items, data, shift)
 
+
+#: Levels (or blocks of a level) of more sorted elements than this form their items and put their codes in
+#: order right after the radix sort rather than when read (a million-row tree's root: 632 000 elements, whose
+#: order and repeated values would add about 0.2x the bytes of X to the fit's working memory)
+LAZY_ELEMENTS = 1 << 18
 
 
 def _equal_next(code: NDArray[np.int64], work: Workspace | None) -> NDArray[np.bool_]:

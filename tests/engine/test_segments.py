@@ -37,14 +37,18 @@ def level(n, p, nodes, seed, rounding=None):
 @pytest.mark.parametrize("n, p, nodes, rounding, by_position", [
     (70_000, 4, 1, None, False), (70_000, 4, 37, 1, False), (300, 6, 9, 0, False), (300, 6, 9, 0, True),
     (3_000, 5, 12, None, True), (3_000, 5, 12, None, False)])
-@pytest.mark.parametrize("mode", ["numpy", "radix"])
+@pytest.mark.parametrize("mode", ["numpy", "radix", "radix, eager"])
 def test_segments_are_each_node_sorted_by_value_ties_in_item_order(monkeypatch, n, p, nodes, rounding, by_position,
                                                                    mode):
     """Both the 64-bit keys and (where every candidate feature is tie-free and the table of rows in
     value order exists) the 32-bit codes read back through that table, each sorted by ``np.sort`` and by the
-    radix sort of :mod:`forestlab.engine.key_sort`."""
-    from forestlab.engine import key_sort
+    radix sort of :mod:`forestlab.engine.key_sort` (its items and ordered codes formed when read, or, as on
+    large levels, at once)."""
+    from forestlab.engine import key_sort, segments
 
+    if mode == "radix, eager":
+        mode = "radix"
+        monkeypatch.setattr(segments, "LAZY_ELEMENTS", 0)
     monkeypatch.setattr(key_sort, "MODE", mode)
     monkeypatch.setattr(key_sort, "RADIX_MIN", 1)
     data, items, mask, X = level(n, p, nodes, seed=n + nodes, rounding=rounding)
