@@ -19,7 +19,7 @@ class Items:
     """The open (tree, row) pairs of one level; ``node`` indexes the level's open nodes, ``wi`` is
     ``slot * n + row``, the pair's column in the batch's weighted statistics (the same array as ``row`` in a
     batch of one tree). ``size``, when known (a fast search's record of its parents' cuts), holds the items
-    of every node, which :func:`sorted_segments` then need not count."""
+    of every node, which :func:`.segments.sorted_segments` then need not count."""
 
     row: NDArray[np.int64]
     node: NDArray[np.int64]
@@ -39,11 +39,11 @@ class Segments:
     ``code`` is ``candidate << code_shift | v`` per element: ``v`` is the dense rank (int64 codes; uint32 on
     the radix sort's path where they fit 32 bits), the dense rank with the item below it (int64 codes when
     every candidate feature is tie-free), or ``feature * n + position`` (uint32 codes, from
-    :func:`_position_segments`). ``no_cut[e]`` is True where
+    :func:`.segments._position_segments`). ``no_cut[e]`` is True where
     element ``e`` and the next hold equal values of the same candidate (and at the last element): no cut lies
     after such an element; None when every candidate feature is tie-free (no neighbours hold equal values).
     Elements are known by their ``item`` (the generic search then fills ``x``,
-    ``wi`` and ``row``, :meth:`materialise`) or, from :func:`_position_segments`, by ``row`` and ``wi``
+    ``wi`` and ``row``, :meth:`materialise`) or, from :func:`.segments._position_segments`, by ``row`` and ``wi``
     directly (``item`` None).
     """
 

@@ -83,8 +83,8 @@ class FastPath:
         L = seg.elements
         # squared error: a fresh array, not a scratch buffer (the allocator hands back memory freed moments ago,
         # still in the cache, where a buffer last written a level ago is not; 0.93-0.99x the fit, paired)
-        out_ = np.empty(L, column.dtype) if self.kind == "squared_error" else scratch(work, "elem", L, column.dtype)
-        elem = seg.item_values(column, out_) if by_item else gather(column, seg.wi, out_)
+        buffer = np.empty(L, column.dtype) if self.kind == "squared_error" else scratch(work, "elem", L, column.dtype)
+        elem = seg.item_values(column, buffer) if by_item else gather(column, seg.wi, buffer)
         del column  # (the items' values: not held through the search)
         if self.kind == "binary":
             return binary_best_splits(seg, splitter, min_leaf, lightest, elem, parent, out, tie, work)
