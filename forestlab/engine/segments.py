@@ -62,22 +62,20 @@ def sorted_segments(data: TrainingData, items: Items, node_tree, mask, cand, wor
     else:  # the codes' stable order (the radix sort needs no item in the key: it keeps ties in pair order)
         code, pair_item = pair_keys(data, items, cand_feat, ncand, first, 0, work, narrow=code_bits <= 32)
         perm = stable_order(code, code_bits)
-        # pair j * N + i is item i (slot-major pairs); a candidate's pairs are all of its node's slot j: the
-        # items are formed when read (:attr:`Segments.item`), except on large levels (working memory: the
-        # order would live through the search, and the values repeated per slot beside the elements')
-        item, pairs = (None, perm) if pair_item is None else (pair_item.take(perm), None)
-        slot_base = None if pairs is None else (np.arange(cand.size) - first[cand_node]) * N
-        lazy = perm.size <= LAZY_ELEMENTS
-        if pairs is not None and not lazy:
-            item = np.subtract(perm, slot_base.repeat(size), out=scratch(work, "item", perm.size,
-                                                                          _item_type(item_bits)), casting="unsafe")
-            pairs = slot_base = None
-        if tie_free and lazy:  # (put in order when read: :attr:`Segments.code`)
-            return Segments(*parts, item, code, None, items, data, shift, _order=perm, _pairs=pairs,
-                            _slot_base=slot_base)
-        code.take(perm, out=code, mode="clip")  # (through a temporary copy: no buffer stays allocated)
-        return Segments(*parts, item, code, None if tie_free else _equal_next(code, work), items, data, shift,
-                        _pairs=pairs, _slot_base=slot_base)
+        # pair j * N + i is item i (slot-major pairs); a candidate's pairs are all of its node's slot j. The
+        # items and the ordered codes are formed when read (:attr:`Segments.item`, :attr:`Segments.code`),
+        # except on large levels (working memory: the order would live through the search, and the values
+        # repeated per slot beside the elements'); codes with ties are put in order for their equal neighbours
+        pairs = perm if pair_item is None else None
+        seg = Segments(*parts, None if pairs is not None else pair_item.take(perm), code, None, items, data, shift,
+                       _order=perm, _pairs=pairs,
+                       _slot_base=None if pairs is None else (np.arange(cand.size) - first[cand_node]) * N)
+        if perm.size > LAZY_ELEMENTS:  # (formed now, and the order dropped)
+            seg.item = seg.item
+            seg.code  # noqa: B018
+        if not tie_free:
+            seg.no_cut = _equal_next(seg.code, work)
+        return seg
     return Segments(*parts, item, code, None if tie_free else _equal_next(code, work), items, data, shift)
 
 
